@@ -1,0 +1,186 @@
+import type { NumericQuantity, Quantity, TextQuantity } from './quantities.js';
+
+export type Severity = 'error' | 'warning' | 'note';
+export const SEVERITIES: readonly Severity[] = ['error', 'warning', 'note'];
+
+/** Severity rank: higher is more serious. */
+export function severityRank(s: Severity): number {
+  return s === 'error' ? 3 : s === 'warning' ? 2 : 1;
+}
+
+/** One bound numeric quantity of a batch, in canonical units. NaN marks a missing cell. */
+export interface QuantityColumn {
+  /** Catalog column the value came from. */
+  column: string;
+  /** Unit the column was read in (a VOUnits string, e.g. `W`, `log(solLum)`). */
+  unit: string;
+  /** Value in the canonical unit of the quantity. */
+  value: Float64Array;
+  /** The number as written in the catalog, before any conversion. */
+  raw: Float64Array;
+  /** Lower and upper uncertainty magnitudes (>= 0) in the canonical unit; null when no error column. */
+  errLo: Float64Array | null;
+  errHi: Float64Array | null;
+  /** Columns the uncertainties came from. */
+  errColumns: string[];
+  /**
+   * For luminosity: log10 of the value and its uncertainties in dex. Kept alongside because
+   * catalogs quote log L errors in dex and converting them through linear space loses the asymmetry.
+   */
+  log?: Float64Array;
+  logErrLo?: Float64Array | null;
+  logErrHi?: Float64Array | null;
+}
+
+export interface TextColumn {
+  column: string;
+  values: (string | null)[];
+}
+
+/** A cell or record the reader or binder could not turn into a value. Sparse: one entry per problem. */
+export interface InputProblem {
+  /** Index within the batch. */
+  index: number;
+  kind: 'unparseable' | 'malformed';
+  column: string | null;
+  text: string;
+  message: string;
+}
+
+/**
+ * A columnar batch of catalog rows in canonical units. Rules loop over the typed arrays; there is
+ * no object per row.
+ */
+export interface Batch {
+  input: number;
+  length: number;
+  /** 1-based data row of the batch's first row. */
+  firstRow: number;
+  /** Physical line of each row in text formats; null for binary formats. */
+  lines: Int32Array | null;
+  quantities: Partial<Record<NumericQuantity, QuantityColumn>>;
+  text: Partial<Record<TextQuantity, TextColumn>>;
+  problems: InputProblem[];
+  /**
+   * Cells a screening rule judged unusable (a likely unit mix-up, a sentinel). Judging rules skip
+   * them, so one bad cell yields one finding from the rule that understands it.
+   */
+  unusable: Partial<Record<NumericQuantity, Uint8Array>>;
+}
+
+export interface ParamSpec {
+  name: string;
+  type: 'number' | 'string' | 'boolean';
+  default: number | string | boolean;
+  description: string;
+  choices?: readonly string[];
+  min?: number;
+  max?: number;
+}
+
+export type ParamValue = number | string | boolean;
+export type ParamValues = Readonly<Record<string, ParamValue>>;
+
+export interface Reference {
+  /** Citation, e.g. "Eker et al. 2018, MNRAS 479, 5491". */
+  cite: string;
+  note?: string;
+}
+
+/** A rule's documentation as structured text; `starsieve rules` and the README are made from it. */
+export interface RuleDoc {
+  /** What it catches, one or two sentences. */
+  catches: string;
+  /** Why it matters, with the physics. */
+  why: string;
+  /** An example row that fires, and why. */
+  fires: string;
+  /** An example row that stays silent, and why. */
+  silent: string;
+  /** Where the result could mislead: thresholds, validity ranges. */
+  cautions: string;
+}
+
+export interface RuleMeta {
+  id: string;
+  title: string;
+  severity: Severity;
+  /**
+   * `screen` rules run first on each batch and may mark cells unusable for the `judge` rules that
+   * follow. Within a stage, rules run in registry order.
+   */
+  stage: 'screen' | 'judge';
+  /** Quantities that must all be bound for the rule to run. */
+  needs: readonly NumericQuantity[];
+  /** Quantities the rule uses when they are bound. */
+  uses: readonly Quantity[];
+  params: readonly ParamSpec[];
+  references: readonly Reference[];
+  doc: RuleDoc;
+}
+
+export interface ExpectedValue {
+  value?: number;
+  min?: number;
+  max?: number;
+  unit: string;
+}
+
+export interface Suggestion {
+  column: string;
+  value: number;
+  unit: string;
+  text: string;
+}
+
+export interface Finding {
+  rule: string;
+  severity: Severity;
+  input: number;
+  /** `row` findings point at one data row; `column` findings speak for a whole column. */
+  scope: 'row' | 'column';
+  /** 1-based data row; null for column findings. */
+  row: number | null;
+  /** Physical line in text formats; null otherwise. */
+  line: number | null;
+  /** The star's identifier where one is bound. */
+  id: string | null;
+  columns: string[];
+  values: Record<string, number | string | null>;
+  expected: ExpectedValue | null;
+  message: string;
+  suggestion: Suggestion | null;
+}
+
+export interface FindingSink {
+  push(f: Finding): void;
+}
+
+/** Row accounting for one rule: every row is either checked or skipped for a stated reason. */
+export class RuleStats {
+  checked = 0;
+  readonly skipped = new Map<string, number>();
+  skip(reason: string, n = 1): void {
+    this.skipped.set(reason, (this.skipped.get(reason) ?? 0) + n);
+  }
+}
+
+/** What a rule knows about the run when it starts. */
+export interface RunContext {
+  params: ParamValues;
+  /** Bound quantities, with the column and unit each came from. */
+  bound: ReadonlyMap<Quantity, { column: string; unit: string }>;
+}
+
+export interface RuleRun {
+  check(batch: Batch, out: FindingSink, stats: RuleStats): void;
+  /** Called once after the last batch of an input, for rules that judge the whole column. */
+  finish?(out: FindingSink, stats: RuleStats): void;
+  /** Extra facts for the summary (relation used, chance exceedances ...). */
+  summary?(): Record<string, unknown>;
+}
+
+export interface Rule {
+  meta: RuleMeta;
+  start(ctx: RunContext): RuleRun;
+}
