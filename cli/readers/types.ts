@@ -57,6 +57,11 @@ export interface CatalogReader {
   batches(): AsyncIterable<RawBatch>;
   /** Final after batches() is exhausted. */
   readonly stats: ReaderStats;
+  /**
+   * Things the reader changed or skipped that the user should hear about (renamed columns,
+   * skipped blank lines). Filled at open; a reader may append more while batches() runs.
+   */
+  readonly notes?: string[];
   close(): Promise<void>;
 }
 

@@ -46,8 +46,10 @@ function piecewisePowerLaw(
 
 /**
  * Eker et al. 2018, MNRAS 479, 5491, Table 4: six-piece empirical relation from 509 main-sequence
- * components of detached eclipsing binaries, 0.179 < M <= 31 M_sun. Segments do not join exactly
- * (steps up to 0.08 dex at the breaks); we use them as published.
+ * components of detached eclipsing binaries, 0.179 <= M <= 31 M_sun. Segments do not join exactly
+ * (steps up to 0.08 dex at the breaks); we use them as published. The lower bound is inclusive
+ * because the paper's abstract gives the calibrated range as 0.179 <= M <= 31: its lightest
+ * calibrating star must still get a verdict.
  */
 export const EKER_2018: MassLuminosityRelation = piecewisePowerLaw(
   {
@@ -65,7 +67,7 @@ export const EKER_2018: MassLuminosityRelation = piecewisePowerLaw(
     { upper: 7.0, a: 3.967, b: 0.093 },
     { upper: 31, a: 2.865, b: 1.105 },
   ],
-  false,
+  true,
 );
 
 const LOG_023 = Math.log10(0.23);
@@ -81,7 +83,7 @@ const LOG_32000 = Math.log10(32000);
 export const CLASSIC: MassLuminosityRelation = {
   id: 'classic',
   name: 'classic piecewise power law',
-  reference: 'Salaris & Cassisi 2005, Evolution of Stars and Stellar Populations, pp. 138-140; Duric 2004, Advanced Astrophysics, p. 19',
+  reference: 'attributed (from memory) to Salaris & Cassisi 2005, Evolution of Stars and Stellar Populations, pp. 138-140, and Duric 2004, Advanced Astrophysics, p. 19',
   minMass: 0.1,
   maxMass: 100,
   logL(m) {

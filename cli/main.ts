@@ -1,0 +1,100 @@
+import { Command, CommanderError, Option } from 'commander';
+import { ConfigError } from '../rules/engine/params.js';
+import { BindingError } from './binding/types.js';
+import { checkCommand } from './commands/check.js';
+import { columnsCommand } from './commands/columns.js';
+import { rulesCommand } from './commands/rules.js';
+import { FAIL_LEVELS } from './options.js';
+import { InputError } from './readers/types.js';
+import { TOOL } from './version.js';
+
+const collect = (v: string, prev: string[]) => [...prev, v];
+
+/** Exit codes: 0 nothing at or above the fail level, 1 findings at or above it, 2 usage, configuration or input errors. */
+export async function main(argv: string[]): Promise<number> {
+  let code = 0;
+  const program = new Command('starsieve')
+    .description('Lint stellar catalogs: physically possible, self-consistent, in the units the header claims.')
+    .version(TOOL.version)
+    .exitOverride()
+    .configureOutput({ writeErr: (s) => process.stderr.write(s) });
+
+  const formatOption = () => new Option('--format <format>', 'input format instead of detecting it').choices(['csv', 'tsv', 'arrow']);
+
+  program
+    .command('check')
+    .description('check catalogs and report findings')
+    .argument('<files...>', 'catalog files (CSV, TSV, Arrow IPC); - for CSV on stdin')
+    .option('--report <path>', 'write the JSON findings report here (atomically)')
+    .addOption(new Option('--fail-on <level>', 'exit 1 when a finding is at or above this severity').choices(FAIL_LEVELS as string[]).default('error'))
+    .option('--rules <ids>', 'run only these rules (comma-separated)')
+    .option('--skip <ids>', 'do not run these rules (comma-separated)')
+    .option('--param <rule.name=value>', 'set a rule parameter (repeatable)', collect, [])
+    .option('--sigma <n>', 'mass-luminosity-outlier threshold in sigma (default 3)')
+    .option('--hydrogen <X>', 'hydrogen mass fraction for eddington-limit (default 0.7)')
+    .option('--bind <column=quantity>', 'bind a column to a quantity, e.g. lum=luminosity, e_lum=luminosity.err, flag=none (repeatable)', collect, [])
+    .option('--unit <column=unit>', 'read a column in this unit, e.g. lum=W (repeatable)', collect, [])
+    .addOption(formatOption())
+    .option('--delimiter <char>', 'CSV delimiter instead of detecting it')
+    .option('--batch-size <rows>', 'rows per batch')
+    .option('--show <n>', 'findings shown per rule in the terminal', '3')
+    .option('--no-color', 'no colour even on a terminal')
+    .option('--quiet', 'print nothing but errors')
+    .action(async (files: string[], o) => {
+      code = await checkCommand(files, { ...o, color: o.color !== false && process.stdout.isTTY === true && !process.env.NO_COLOR });
+    });
+
+  program
+    .command('columns')
+    .description('show how the columns of a catalog are bound to quantities and units, and why')
+    .argument('<file>', 'catalog file')
+    .option('--bind <column=quantity>', 'bind a column to a quantity (repeatable)', collect, [])
+    .option('--unit <column=unit>', 'read a column in this unit (repeatable)', collect, [])
+    .addOption(formatOption())
+    .option('--delimiter <char>', 'CSV delimiter instead of detecting it')
+    .option('--json', 'machine-readable output')
+    .action(async (file: string, o) => {
+      code = await columnsCommand(file, o);
+    });
+
+  program
+    .command('rules')
+    .description('list the rules with their documentation')
+    .option('--json', 'the rules\' metadata as JSON')
+    .option('--markdown', 'the rule reference as Markdown')
+    .option('--verbose', 'full documentation of each rule')
+    .addOption(new Option('--write-readme').hideHelp())
+    .action((o) => {
+      code = rulesCommand(o);
+    });
+
+  try {
+    await program.parseAsync(argv, { from: 'user' });
+    return code;
+  } catch (e) {
+    if (e instanceof CommanderError) return e.exitCode === 0 ? 0 : 2;
+    if (e instanceof InputError) {
+      process.stderr.write(`starsieve: ${e.path}${e.position ? `:${e.position}` : ''}: ${e.message}\n`);
+      return 2;
+    }
+    if (e instanceof BindingError || e instanceof ConfigError) {
+      process.stderr.write(`starsieve: ${e.message}\n`);
+      return 2;
+    }
+    const err = e as NodeJS.ErrnoException;
+    if (err && typeof err.code === 'string' && /^E[A-Z]+$/.test(err.code)) {
+      process.stderr.write(`starsieve: ${err.message}\n`);
+      return 2;
+    }
+    process.stderr.write(`starsieve: internal error: ${err?.message ?? String(e)} (please report this with the input that caused it)\n`);
+    if (process.env.STARSIEVE_DEBUG) process.stderr.write(`${err?.stack ?? ''}\n`);
+    return 2;
+  }
+}
+
+const isEntry = process.argv[1] && import.meta.url === new URL(`file://${process.argv[1]}`).href;
+if (isEntry) {
+  main(process.argv.slice(2)).then((code) => {
+    process.exitCode = code;
+  });
+}

@@ -1,0 +1,564 @@
+/**
+ * Delimited text (CSV, TSV, semicolon and pipe tables) read as a stream.
+ *
+ * papaparse does the field splitting, but we drive its low-level Parser ourselves instead of
+ * handing it the stream: that way we always know exactly which text each parse call saw, which is
+ * what lets us give every record its physical line number (papaparse's `row` is a data-row index,
+ * not a line), cap how much text one broken record may hold, and recover after a quote that never
+ * closes. Rows arrive from papaparse as arrays; they are transposed straight into one string array
+ * per column, so everything downstream is columnar.
+ */
+import { createReadStream } from 'node:fs';
+import type { Readable } from 'node:stream';
+import Papa from 'papaparse';
+import type { ParseError } from 'papaparse';
+import { batchSizeOf, describeIoError, displayName, uniqueColumnNames } from './common.js';
+import {
+  InputError,
+  type CatalogReader,
+  type ColumnMeta,
+  type MalformedRecord,
+  type RawBatch,
+  type ReaderOptions,
+  type ReaderStats,
+} from './types.js';
+
+export interface CsvOptions extends ReaderOptions {
+  /**
+   * Most characters one record may span while we wait for it to end. Past this the record is
+   * treated as broken (almost always a quote that never closes), so memory stays bounded.
+   */
+  maxRecordChars?: number;
+  /** Bytes per read from a file; tests make it tiny to put chunk boundaries everywhere. */
+  readChunkBytes?: number;
+}
+
+const DEFAULT_MAX_RECORD_CHARS = 8 * 1024 * 1024;
+/** Bigger reads mean fewer parse calls; 1 MiB keeps the per-call overhead negligible. */
+const READ_CHUNK_BYTES = 1 << 20;
+/** Tried in this order, so a tie between counts goes to the more common delimiter. */
+const DELIMITER_CANDIDATES = [',', '\t', ';', '|'];
+const NL = 10;
+const HASH = 35;
+const QUOTE = 34;
+const CR_RE = /\r\n?/g;
+
+export async function openCsv(path: string, options: CsvOptions = {}): Promise<CatalogReader> {
+  const reader = new CsvReader(path, options);
+  try {
+    await reader.open();
+  } catch (err) {
+    await reader.close();
+    throw err;
+  }
+  return reader;
+}
+
+class CsvReader implements CatalogReader {
+  format: 'csv' | 'tsv' = 'csv';
+  readonly path: string;
+  columns: ColumnMeta[] = [];
+  readonly stats: ReaderStats = { records: 0, rows: 0, unparseable: 0 };
+  readonly notes: string[] = [];
+
+  private readonly name: string;
+  private readonly options: CsvOptions;
+  private readonly batchSize: number;
+  private readonly maxRecordChars: number;
+  private readonly comments: boolean;
+  private readonly stream: Readable;
+  private readonly source: AsyncIterator<string | Buffer>;
+  private parser: Papa.Parser | null = null;
+  private ncols = 0;
+
+  /** Text not yet turned into records; it always starts at the beginning of physical line `line`. */
+  private buf = '';
+  private line = 1;
+  private eof = false;
+  private atStart = true;
+  /** A chunk ended in '\r': hold it back, the next chunk may start with the '\n' of a CRLF. */
+  private pendingCR = false;
+  /** Throwing away the rest of an over-long line that has no end in sight yet. */
+  private skippingLine = false;
+  /** Re-parse only once the buffer has doubled, so a record that spans many reads costs O(n). */
+  private nextParseAt = 0;
+  private started = false;
+  private closed = false;
+
+  private cols: (string | null)[][] = [];
+  private lines: Int32Array = new Int32Array(0);
+  private n = 0;
+  private malformed: MalformedRecord[] = [];
+  private ready: RawBatch[] = [];
+
+  private blankLines = 0;
+  private firstBlankLine = 0;
+
+  constructor(path: string, options: CsvOptions) {
+    this.path = path;
+    this.name = displayName(path);
+    this.options = options;
+    this.batchSize = batchSizeOf(options.batchSize);
+    this.maxRecordChars = Math.max(1024, options.maxRecordChars ?? DEFAULT_MAX_RECORD_CHARS);
+    // A '#' delimiter would make every row a comment; papaparse refuses the combination.
+    this.comments = options.delimiter !== '#';
+    if (path === '-') {
+      process.stdin.setEncoding('utf8');
+      this.stream = process.stdin;
+    } else {
+      // Decoding in the stream keeps multi-byte characters that straddle chunks intact.
+      const highWaterMark = Math.max(1, options.readChunkBytes ?? READ_CHUNK_BYTES);
+      this.stream = createReadStream(path, { encoding: 'utf8', highWaterMark });
+    }
+    this.source = this.stream[Symbol.asyncIterator]();
+  }
+
+  /** Reads up to and including the header row, so `columns` is known before any batch. */
+  async open(): Promise<void> {
+    const explicit = parseDelimiterOption(this.options.delimiter, this.path);
+    while (!this.skipPreamble()) {
+      if (this.eof) {
+        throw new InputError(
+          `${this.name}: no header row found (the input is empty or holds only comment and blank lines)`,
+          this.path,
+        );
+      }
+      await this.readMore();
+    }
+    const firstNl = this.buf.indexOf('\n');
+    const headerLine = firstNl === -1 ? this.buf : this.buf.slice(0, firstNl);
+    const delimiter = explicit ?? detectDelimiter(headerLine);
+    this.format = delimiter === '\t' ? 'tsv' : 'csv';
+    this.parser = new Papa.Parser({
+      delimiter,
+      newline: '\n',
+      quoteChar: '"',
+      comments: this.comments ? '#' : false,
+    });
+
+    let header: string[];
+    for (;;) {
+      // Without quotes the header is its first line; parsing only that spares a pass over the chunk.
+      const quoted = headerLine.indexOf('"') !== -1;
+      const res = this.parser.parse(quoted ? this.buf : headerLine, 0, quoted && !this.eof);
+      const rows = res.data as string[][];
+      for (const e of res.errors as ParseError[]) {
+        if (e.code === 'MissingQuotes' && e.row === 0) {
+          throw new InputError(
+            `${this.name}, line ${this.line}: the header row has a quoted name that is never closed`,
+            this.path,
+            `line ${this.line}`,
+          );
+        }
+      }
+      if (rows.length > 0) {
+        header = rows[0];
+        break;
+      }
+      if (this.buf.length > this.maxRecordChars) {
+        throw new InputError(
+          `${this.name}, line ${this.line}: the header row runs past ${this.maxRecordChars} characters without ending (a quote that is never closed?)`,
+          this.path,
+          `line ${this.line}`,
+        );
+      }
+      await this.readMore();
+    }
+    // A quoted name may hold newlines; the data starts after all of them.
+    const spanned = 1 + newlinesInFields(header);
+    this.buf = this.buf.slice(skipNewlines(this.buf, 0, spanned));
+    this.line += spanned;
+
+    const { names, notes } = uniqueColumnNames(header);
+    this.notes.push(...notes);
+    this.columns = names.map((name) => ({ name, unit: null, ucd: null, description: null, type: 'text' }));
+    this.ncols = names.length;
+    this.startBatch();
+  }
+
+  async *batches(): AsyncGenerator<RawBatch> {
+    if (this.started) throw new Error('CatalogReader.batches() can be iterated only once');
+    this.started = true;
+    try {
+      for (;;) {
+        if (this.eof || this.buf.length >= this.nextParseAt) this.consume(this.eof);
+        while (this.ready.length > 0) yield this.ready.shift()!;
+        if (this.eof) break;
+        await this.readMore();
+      }
+      if (this.n > 0 || this.malformed.length > 0) {
+        this.finishBatch();
+        yield this.ready.shift()!;
+      }
+      if (this.blankLines > 0) {
+        this.notes.push(
+          `${this.blankLines} blank line${this.blankLines === 1 ? '' : 's'} inside the data ` +
+            `(the first at line ${this.firstBlankLine}) ${this.blankLines === 1 ? 'was skipped; it is not a record' : 'were skipped; they are not records'}`,
+        );
+      }
+    } finally {
+      await this.close();
+    }
+  }
+
+  async close(): Promise<void> {
+    if (this.closed) return;
+    this.closed = true;
+    // stdin belongs to the process, not to us.
+    if (this.path !== '-') this.stream.destroy();
+  }
+
+  // ---- input -------------------------------------------------------------------------------
+
+  private async readMore(): Promise<void> {
+    let next: IteratorResult<string | Buffer>;
+    try {
+      next = await this.source.next();
+    } catch (err) {
+      throw new InputError(
+        `cannot read ${this.name}: ${describeIoError(err)}`,
+        this.path,
+        this.atStart ? null : `line ${this.line}`,
+      );
+    }
+    if (next.done) {
+      this.eof = true;
+      if (this.pendingCR) {
+        this.pendingCR = false;
+        this.append('\n');
+      }
+      return;
+    }
+    let text = typeof next.value === 'string' ? next.value : next.value.toString('utf8');
+    if (this.atStart) {
+      this.atStart = false;
+      if (text.charCodeAt(0) === 0xfeff) text = text.slice(1);
+    }
+    if (this.pendingCR) {
+      this.pendingCR = false;
+      text = '\r' + text;
+    }
+    // CRLF, and a lone CR, become '\n': one break per physical line, and one newline for the parser.
+    if (text.indexOf('\r') !== -1) {
+      if (text.charCodeAt(text.length - 1) === 13) {
+        this.pendingCR = true;
+        text = text.slice(0, -1);
+      }
+      text = text.replace(CR_RE, '\n');
+    }
+    this.append(text);
+  }
+
+  private append(text: string): void {
+    if (this.skippingLine) {
+      const nl = text.indexOf('\n');
+      if (nl === -1) return;
+      text = text.slice(nl + 1);
+      this.line++;
+      this.skippingLine = false;
+    }
+    this.buf = this.buf.length === 0 ? text : this.buf + text;
+  }
+
+  /**
+   * Drops whole comment and blank lines before the header. True once the buffer starts with the
+   * header and holds its first line completely (so the delimiter can be detected from it).
+   */
+  private skipPreamble(): boolean {
+    const buf = this.buf;
+    let pos = 0;
+    let found = false;
+    while (pos < buf.length) {
+      const nl = buf.indexOf('\n', pos);
+      if (nl === -1 && !this.eof) break;
+      const end = nl === -1 ? buf.length : nl;
+      const skip = (this.comments && buf.charCodeAt(pos) === HASH) || buf.slice(pos, end).trim() === '';
+      if (!skip) {
+        found = true;
+        break;
+      }
+      pos = nl === -1 ? buf.length : nl + 1;
+      if (nl !== -1) this.line++;
+    }
+    if (pos > 0) this.buf = buf.slice(pos);
+    return found;
+  }
+
+  // ---- records -----------------------------------------------------------------------------
+
+  /** Turns as much of the buffer into records as is complete (all of it when `final`). */
+  private consume(final: boolean): void {
+    const parser = this.parser!;
+    for (;;) {
+      this.dropLeadingComments(final);
+      const buf = this.buf;
+      if (buf.length === 0) {
+        this.nextParseAt = 0;
+        return;
+      }
+      const res = parser.parse(buf, 0, !final);
+      const data = res.data as string[][];
+      let usable = data.length;
+      let unclosed = false;
+      let badQuotes: Set<number> | null = null;
+      for (const e of res.errors as ParseError[]) {
+        if (e.code === 'MissingQuotes') {
+          unclosed = true;
+          usable = e.row ?? data.length - 1;
+        } else if (e.code === 'InvalidQuotes') {
+          if (e.row !== undefined) (badQuotes ??= new Set()).add(e.row);
+        }
+      }
+      const at = this.takeRows(buf, data, usable, final && !unclosed, badQuotes);
+
+      if (unclosed) {
+        // papaparse put everything from the open quote to the end into one field. Rather than
+        // lose all those lines, call only the line the record starts on broken and read on.
+        this.buf = buf.slice(at.pos);
+        this.line = at.line;
+        this.dropLeadingComments(true);
+        this.brokenRecord(
+          this.line,
+          `line ${this.line}: a quoted field opened on this line is never closed; the line was skipped and reading resumed on the next line`,
+        );
+        this.skipFirstLine();
+        continue;
+      }
+
+      const consumed: number = res.meta.cursor;
+      this.line = at.line + (consumed > at.pos ? countNewlines(buf, at.pos, consumed) : 0);
+      this.buf = consumed >= buf.length ? '' : buf.slice(consumed);
+
+      if (!final && this.buf.length > this.maxRecordChars) {
+        // One record has grown past the cap with no end: treat it like an unclosed quote.
+        this.dropLeadingComments(false);
+        // An endless comment line is still only a comment: drop it without calling it a record.
+        if (!(this.comments && this.buf.charCodeAt(0) === HASH)) {
+          this.brokenRecord(
+            this.line,
+            `line ${this.line}: the record starting here runs past ${this.maxRecordChars} characters without ending (a quote that is never closed?); the line was skipped and reading resumed on the next line`,
+          );
+        }
+        this.skipFirstLine();
+        continue;
+      }
+      this.nextParseAt = Math.min(this.buf.length * 2, this.maxRecordChars + 1);
+      return;
+    }
+  }
+
+  /**
+   * Hands the first `count` parsed rows to the batch with their physical line numbers and
+   * returns where (offset and line) the text after them starts.
+   */
+  private takeRows(
+    buf: string,
+    data: string[][],
+    count: number,
+    phantomPossible: boolean,
+    badQuotes: Set<number> | null,
+  ): { pos: number; line: number } {
+    const startLine = this.line;
+    const hasQuote = buf.indexOf('"') !== -1;
+    // Without quotes and comment lines, row k simply sits on line startLine + k.
+    const simple =
+      !hasQuote && (!this.comments || (buf.charCodeAt(0) !== HASH && buf.indexOf('\n#') === -1));
+    // papaparse leaves an empty row after a final newline; it is not a line of the file.
+    const phantom = phantomPossible && buf.charCodeAt(buf.length - 1) === NL ? data.length - 1 : -1;
+
+    if (simple) {
+      for (let k = 0; k < count; k++) {
+        this.takeRow(data[k], startLine + k, k === phantom, badQuotes !== null && badQuotes.has(k));
+      }
+      // Every row here is one line ended by a newline (bar the very last one of the input, where
+      // the position no longer matters), so the rows account for all the consumed text.
+      return { pos: buf.length, line: startLine + count };
+    }
+
+    let pos = 0;
+    let line = startLine;
+    let nextQuote = hasQuote ? buf.indexOf('"') : -1;
+    for (let k = 0; k < count; k++) {
+      if (this.comments) {
+        while (buf.charCodeAt(pos) === HASH) {
+          const nl = buf.indexOf('\n', pos);
+          if (nl === -1) break;
+          pos = nl + 1;
+          line++;
+        }
+      }
+      const row = data[k];
+      let inner = 0;
+      if (nextQuote !== -1) {
+        if (nextQuote < pos) nextQuote = buf.indexOf('"', pos);
+        const nl = buf.indexOf('\n', pos);
+        if (nextQuote !== -1 && (nl === -1 || nextQuote < nl)) inner = newlinesInFields(row);
+      }
+      this.takeRow(row, line, k === phantom, badQuotes !== null && badQuotes.has(k));
+      pos = skipNewlines(buf, pos, inner + 1);
+      line += inner + 1;
+    }
+    return { pos, line };
+  }
+
+  private takeRow(row: string[], line: number, phantom: boolean, badQuotes: boolean): void {
+    const width = row.length;
+    if (width === 1) {
+      const only = row[0];
+      if (only === '' || (only.charCodeAt(0) <= 32 && only.trim() === '')) {
+        if (!phantom) {
+          if (this.blankLines === 0) this.firstBlankLine = line;
+          this.blankLines++;
+        }
+        return;
+      }
+    }
+    this.stats.records++;
+    const index = this.n;
+    const ncols = this.ncols;
+    const cols = this.cols;
+    if (width === ncols) {
+      for (let c = 0; c < ncols; c++) cols[c].push(row[c]);
+    } else if (width < ncols) {
+      for (let c = 0; c < width; c++) cols[c].push(row[c]);
+      for (let c = width; c < ncols; c++) cols[c].push(null);
+      this.malformed.push({
+        index,
+        line,
+        message: `line ${line}: ${width} field${width === 1 ? '' : 's'}, header has ${ncols}; the missing ${ncols - width} are empty`,
+      });
+    } else {
+      for (let c = 0; c < ncols; c++) cols[c].push(row[c]);
+      this.malformed.push({
+        index,
+        line,
+        message: `line ${line}: ${width} fields, header has ${ncols}; the extra ${width - ncols} were dropped`,
+      });
+    }
+    if (badQuotes) {
+      this.malformed.push({
+        index,
+        line,
+        message: `line ${line}: a quoted field has text after its closing quote; the field was read up to the next closing quote`,
+      });
+    }
+    this.lines[index] = line;
+    this.n = index + 1;
+    this.stats.rows++;
+    if (this.n === this.batchSize) this.finishBatch();
+  }
+
+  /** A record that yields no row: counted, reported, and its place in the batch is -1. */
+  private brokenRecord(line: number, message: string): void {
+    this.stats.records++;
+    this.stats.unparseable++;
+    this.malformed.push({ index: -1, line, message });
+  }
+
+  /** Drops the buffer's first physical line; if its end has not arrived yet, discards up to it. */
+  private skipFirstLine(): void {
+    const nl = this.buf.indexOf('\n');
+    if (nl === -1) {
+      this.buf = '';
+      this.skippingLine = !this.eof;
+    } else {
+      this.buf = this.buf.slice(nl + 1);
+      this.line++;
+    }
+  }
+
+  private dropLeadingComments(final: boolean): void {
+    if (!this.comments) return;
+    const buf = this.buf;
+    let pos = 0;
+    while (buf.charCodeAt(pos) === HASH) {
+      const nl = buf.indexOf('\n', pos);
+      if (nl === -1) {
+        if (final) pos = buf.length;
+        break;
+      }
+      pos = nl + 1;
+      this.line++;
+    }
+    if (pos > 0) this.buf = buf.slice(pos);
+  }
+
+  // ---- batches -----------------------------------------------------------------------------
+
+  private startBatch(): void {
+    this.cols = [];
+    for (let c = 0; c < this.ncols; c++) this.cols.push([]);
+    this.lines = new Int32Array(this.batchSize);
+    this.n = 0;
+    this.malformed = [];
+  }
+
+  private finishBatch(): void {
+    const n = this.n;
+    this.ready.push({
+      length: n,
+      firstRow: this.stats.rows - n + 1,
+      lines: this.lines.subarray(0, n),
+      columns: this.cols.map((values) => ({ kind: 'text', values })),
+      malformed: this.malformed,
+    });
+    this.startBatch();
+  }
+}
+
+/** The delimiter option as given, with the spellings a shell user is likely to type for a tab. */
+function parseDelimiterOption(value: string | undefined, path: string): string | undefined {
+  if (value === undefined) return undefined;
+  const d = value === 'tab' || value === '\\t' ? '\t' : value;
+  if (d === '' || /[\r\n"\ufeff]/.test(d)) {
+    throw new InputError(
+      `unusable delimiter ${JSON.stringify(value)}: it must be non-empty and not a quote or line break`,
+      path,
+    );
+  }
+  return d;
+}
+
+/** The candidate seen most often outside quotes in the header line; ',' for a one-column file. */
+export function detectDelimiter(headerLine: string): string {
+  const counts = [0, 0, 0, 0];
+  let quoted = false;
+  for (let i = 0; i < headerLine.length; i++) {
+    const ch = headerLine.charCodeAt(i);
+    if (ch === QUOTE) quoted = !quoted;
+    else if (!quoted) {
+      if (ch === 44) counts[0]++;
+      else if (ch === 9) counts[1]++;
+      else if (ch === 59) counts[2]++;
+      else if (ch === 124) counts[3]++;
+    }
+  }
+  let best = 0;
+  for (let k = 1; k < counts.length; k++) if (counts[k] > counts[best]) best = k;
+  return DELIMITER_CANDIDATES[best];
+}
+
+function newlinesInFields(row: string[]): number {
+  let total = 0;
+  for (let c = 0; c < row.length; c++) {
+    const field = row[c];
+    for (let i = field.indexOf('\n'); i !== -1; i = field.indexOf('\n', i + 1)) total++;
+  }
+  return total;
+}
+
+function countNewlines(s: string, from: number, to: number): number {
+  let total = 0;
+  for (let i = s.indexOf('\n', from); i !== -1 && i < to; i = s.indexOf('\n', i + 1)) total++;
+  return total;
+}
+
+/** Offset just past the `count`-th newline from `pos`, or the end of the text. */
+function skipNewlines(s: string, pos: number, count: number): number {
+  for (let j = 0; j < count; j++) {
+    const nl = s.indexOf('\n', pos);
+    if (nl === -1) return s.length;
+    pos = nl + 1;
+  }
+  return pos;
+}

@@ -1,0 +1,44 @@
+import type { Finding, FindingSink } from '../../rules/engine/types.js';
+import { AtomicFile } from './atomic-file.js';
+
+export const REPORT_FORMAT = 'starsieve-findings';
+export const REPORT_SCHEMA_VERSION = 1;
+
+export interface ReportTail {
+  inputs: unknown[];
+  bindings: unknown[];
+  rules: unknown[];
+  summary: unknown;
+}
+
+/**
+ * The findings report, streamed: findings are written as they arrive, the inputs, bindings and
+ * summary (known only at the end) after them. Key order in JSON carries no meaning, so nothing
+ * needs to be held back. Described by findings-report.schema.json.
+ */
+export class JsonReportWriter implements FindingSink {
+  private readonly file: AtomicFile;
+  private count = 0;
+
+  constructor(path: string, tool: { name: string; version: string }) {
+    this.file = new AtomicFile(path);
+    this.file.write(
+      `{"format":${JSON.stringify(REPORT_FORMAT)},"schemaVersion":${REPORT_SCHEMA_VERSION},"tool":${JSON.stringify(tool)},"createdAt":${JSON.stringify(new Date().toISOString())},\n"findings":[`,
+    );
+  }
+
+  push(f: Finding): void {
+    this.file.write((this.count++ === 0 ? '\n' : ',\n') + JSON.stringify(f));
+  }
+
+  commit(tail: ReportTail): void {
+    this.file.write(
+      `\n],\n"inputs":${JSON.stringify(tail.inputs)},\n"bindings":${JSON.stringify(tail.bindings)},\n"rules":${JSON.stringify(tail.rules)},\n"summary":${JSON.stringify(tail.summary)}\n}\n`,
+    );
+    this.file.commit();
+  }
+
+  abort(): void {
+    this.file.abort();
+  }
+}

@@ -1,0 +1,5 @@
+import { readFileSync } from 'node:fs';
+
+const pkg = JSON.parse(readFileSync(new URL('../package.json', import.meta.url), 'utf8')) as { name: string; version: string };
+
+export const TOOL = { name: pkg.name, version: pkg.version };

@@ -1,0 +1,68 @@
+import type { Batch, ExpectedValue, Finding, Severity, Suggestion } from './types.js';
+
+export interface RowFindingParts {
+  rule: string;
+  severity: Severity;
+  columns: string[];
+  values: Record<string, number | string | null>;
+  expected?: ExpectedValue | null;
+  message: string;
+  suggestion?: Suggestion | null;
+}
+
+/** A finding about row `index` of `batch`, with the row, line and star id filled in. */
+export function rowFinding(batch: Batch, index: number, parts: RowFindingParts): Finding {
+  const id = batch.text.id?.values[index] ?? null;
+  return {
+    rule: parts.rule,
+    severity: parts.severity,
+    input: batch.input,
+    scope: 'row',
+    row: batch.firstRow + index,
+    line: batch.lines ? batch.lines[index] : null,
+    id: id === '' ? null : id,
+    columns: parts.columns,
+    values: parts.values,
+    expected: parts.expected ?? null,
+    message: parts.message,
+    suggestion: parts.suggestion ?? null,
+  };
+}
+
+export interface ColumnFindingParts extends RowFindingParts {
+  input: number;
+}
+
+/** A finding that speaks for a whole column rather than one row. */
+export function columnFinding(parts: ColumnFindingParts): Finding {
+  return {
+    rule: parts.rule,
+    severity: parts.severity,
+    input: parts.input,
+    scope: 'column',
+    row: null,
+    line: null,
+    id: null,
+    columns: parts.columns,
+    values: parts.values,
+    expected: parts.expected ?? null,
+    message: parts.message,
+    suggestion: parts.suggestion ?? null,
+  };
+}
+
+/**
+ * A number for a message: up to 4 significant digits, exponent form outside 1e-3..1e6 so a watts
+ * value reads as 3.828e+26 rather than a row of zeros.
+ */
+export function fmt(x: number, digits = 4): string {
+  if (!Number.isFinite(x)) return String(x);
+  const a = Math.abs(x);
+  if (a !== 0 && (a >= 1e6 || a < 1e-3)) return x.toExponential(digits - 1).replace(/\.?0+e/, 'e');
+  return String(Number(x.toPrecision(digits)));
+}
+
+/** Round for the machine-readable report: keeps 6 significant digits, enough to act on. */
+export function round6(x: number): number | null {
+  return Number.isFinite(x) ? Number(x.toPrecision(6)) : null;
+}

@@ -1,0 +1,70 @@
+import { tableFromArrays, tableToIPC } from 'apache-arrow';
+import { gzipSync } from 'node:zlib';
+import { afterAll, describe, expect, it } from 'vitest';
+import { FORMATS, openCatalog } from '../../../cli/readers/open.js';
+import { InputError } from '../../../cli/readers/types.js';
+import { collect, failure, TempDir } from './helpers.js';
+
+const tmp = new TempDir();
+afterAll(() => tmp.remove());
+
+const arrowTable = tableFromArrays({ v: new Float64Array([1, 2]) });
+
+describe('openCatalog', () => {
+  it('sniffs Arrow file and stream formats whatever the extension', async () => {
+    const file = tmp.write('data.dat', tableToIPC(arrowTable, 'file'));
+    const stream = tmp.write('data.bin', tableToIPC(arrowTable, 'stream'));
+    for (const p of [file, stream]) {
+      const reader = await openCatalog(p, {});
+      expect(reader.format).toBe('arrow');
+      expect((await collect(reader)).rows).toEqual([[1], [2]]);
+    }
+  });
+
+  it('chooses CSV or TSV by extension', async () => {
+    const csv = await openCatalog(tmp.write('a.csv', 'x;y\n1;2\n'), {});
+    expect(csv.format).toBe('csv');
+    expect(csv.columns.map((c) => c.name)).toEqual(['x', 'y']);
+    await csv.close();
+    // A .tsv is read with tabs even when its names hold more commas than tabs.
+    const tsv = await openCatalog(tmp.write('a.tsv', 'a,b,c\td\n1\t2\n'), {});
+    expect(tsv.format).toBe('tsv');
+    expect(tsv.columns.map((c) => c.name)).toEqual(['a,b,c', 'd']);
+    await tsv.close();
+    const txt = await openCatalog(tmp.write('a.txt', 'p|q\n1|2\n'), {});
+    expect(txt.columns.map((c) => c.name)).toEqual(['p', 'q']);
+    await txt.close();
+  });
+
+  it('lets an explicit format win over the extension', async () => {
+    const reader = await openCatalog(tmp.write('table.arrow.txt', 'a,b\n1,2\n'), { format: 'CSV', batchSize: 1 });
+    const r = await collect(reader);
+    expect(r.rows).toEqual([['1', '2']]);
+    const arrow = await openCatalog(tmp.write('noext', tableToIPC(arrowTable, 'stream')), { format: 'feather' });
+    expect(arrow.format).toBe('arrow');
+    await arrow.close();
+  });
+
+  it('gives InputErrors for an unknown format, a missing file, a directory and an unknown extension', async () => {
+    const cases: [Promise<unknown>, RegExp][] = [
+      [openCatalog(tmp.write('u.csv', 'a\n'), { format: 'fits-ish' }), /^unknown format 'fits-ish' .*known: arrow, csv, tsv/],
+      [openCatalog(tmp.dir + '/missing.csv', {}), /^cannot read .*missing\.csv: no such file or directory$/],
+      [openCatalog(tmp.dir + '/missing.csv', { format: 'csv' }), /^cannot read .*missing\.csv: /],
+      [openCatalog(tmp.dir, {}), /^cannot read .*: it is a directory$/],
+      [openCatalog(tmp.write('cat.dat', 'a,b\n'), {}), /cannot tell the format .*'\.dat'.*--format/],
+      [openCatalog(tmp.write('cat.csv.gz', gzipSync('a,b\n1,2\n')), {}), /gzip-compressed/],
+    ];
+    for (const [promise, message] of cases) {
+      const err = await failure(promise);
+      expect(err).toBeInstanceOf(InputError);
+      expect((err as InputError).message).toMatch(message);
+    }
+  });
+
+  it('keeps one table entry per format, with distinct names and extensions', () => {
+    const names = FORMATS.flatMap((f) => [f.format, ...f.aliases]);
+    const exts = FORMATS.flatMap((f) => f.extensions);
+    expect(new Set(names).size).toBe(names.length);
+    expect(new Set(exts).size).toBe(exts.length);
+  });
+});
