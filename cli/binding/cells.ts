@@ -53,6 +53,9 @@ export function readNumbers(col: RawColumn, column: string, out: Float64Array, p
     const m = Math.min(n, v.length);
     out.set(m === v.length ? v : v.subarray(0, m));
     for (let i = m; i < n; i++) out[i] = NaN;
+    // The contract puts NaN under a typed null already; the mask is honoured in case a reader does not.
+    const nulls = col.nulls;
+    if (nulls !== null) for (let i = 0; i < m; i++) if (nulls[i] === 1) out[i] = NaN;
     return;
   }
   const cells = col.values;
@@ -76,7 +79,7 @@ export function readNumbers(col: RawColumn, column: string, out: Float64Array, p
   }
 }
 
-/** Text cells for id and stage: trimmed, with empty and missing markers as null. */
+/** Text cells for id and stage: trimmed, with empty cells and missing markers as null. */
 export function readText(col: RawColumn, n: number): (string | null)[] {
   const out: (string | null)[] = new Array(n);
   if (col.kind === 'number') {
@@ -94,7 +97,7 @@ export function readText(col: RawColumn, n: number): (string | null)[] {
       continue;
     }
     const t = s.trim();
-    out[i] = t === '' ? null : t;
+    out[i] = MISSING.has(t.toLowerCase()) ? null : t;
   }
   return out;
 }

@@ -150,8 +150,13 @@ function squash(tokens: readonly Token[]): string {
     .replace(/[^a-z0-9*]/g, '');
 }
 
+/** Own-property lookup: a header such as `constructor` must not find Object.prototype. */
+function own<T>(table: Readonly<Record<string, T>>, key: string): T | undefined {
+  return Object.hasOwn(table, key) ? table[key] : undefined;
+}
+
 function wordFor(tokens: readonly Token[]): Word | undefined {
-  if (tokens.length === 1 && tokens[0].text.length === 1) return SINGLE[tokens[0].text];
+  if (tokens.length === 1 && tokens[0].text.length === 1) return own(SINGLE, tokens[0].text);
   const key = squash(tokens);
   return Object.hasOwn(WORDS, key) ? WORDS[key] : undefined;
 }
@@ -224,7 +229,7 @@ function tokenGuess(name: string, tokens: Token[]): ValueGuess | null {
 
   if (tokens.length > 1 && LOG_WORDS.has(first)) {
     const rest = tokens.slice(1);
-    const afterLog = rest.length === 1 ? AFTER_LOG[rest[0].text] : undefined;
+    const afterLog = rest.length === 1 && Object.hasOwn(AFTER_LOG, rest[0].text) ? AFTER_LOG[rest[0].text] : undefined;
     if (afterLog) return { quantity: afterLog.q, score: afterLog.score, log: true, unit: null, unitHint: null, unitPlace: null, decoration: null };
     const inner = tokenGuess(name, rest);
     if (inner && LOGGABLE.has(inner.quantity) && !inner.log) return { ...inner, log: true };
@@ -235,11 +240,10 @@ function tokenGuess(name: string, tokens: Token[]): ValueGuess | null {
   if (glued) {
     const restText = glued[2];
     const restTokens: Token[] = [{ text: restText, start: tokens[0].start + glued[1].length, end: tokens[0].end }, ...tokens.slice(1)];
-    const single = restTokens.length === 1 && restText.length === 1 ? (SINGLE[restText.toUpperCase()] ?? AFTER_LOG[restText]) : undefined;
+    const single = restTokens.length === 1 && restText.length === 1 ? (own(SINGLE, restText.toUpperCase()) ?? own(AFTER_LOG, restText)) : undefined;
     const inner = single
       ? { quantity: single.q, score: single.score, log: false, unit: null, unitHint: null, unitPlace: null, decoration: null }
       : tokenGuess(name, restTokens);
-    if (inner && inner.quantity === 'logg' && single) return { ...inner, log: true };
     if (inner && LOGGABLE.has(inner.quantity) && !inner.log) return { ...inner, log: true };
   }
 
@@ -251,9 +255,10 @@ function tokenGuess(name: string, tokens: Token[]): ValueGuess | null {
     const restText = name.slice(rest[0].start).trim();
     const unitText = restText.replace(/^[[(]\s*|\s*[\])]$/g, '');
     if (unitFits(word.q, unitText)) {
+      // A written unit makes `M_Msun` as sure as `mass`: a bare letter is what scores lower.
       return {
         quantity: word.q,
-        score: word.score,
+        score: Math.max(word.score, SCORE_PLAIN),
         log: false,
         unit: unitText,
         unitHint: name.slice(tokens[k - 1].end),
@@ -284,14 +289,14 @@ function tokenGuess(name: string, tokens: Token[]): ValueGuess | null {
   for (const key of Object.keys(WORDS)) {
     if (key.length < lower.length && lower.startsWith(key) && (!best || key.length > best.key.length)) best = { key, word: WORDS[key] };
   }
-  const singleWord = SINGLE[t[0]];
+  const singleWord = own(SINGLE, t[0]);
   const candidates: { len: number; word: Word; single: boolean }[] = [];
   if (best) candidates.push({ len: best.key.length, word: best.word, single: false });
   if (singleWord && t.length > 1) candidates.push({ len: 1, word: singleWord, single: true });
   for (const c of candidates) {
     const remainder = t.slice(c.len) + name.slice(tokens[0].end);
     if (remainder.length >= 2 && unitFits(c.word.q, remainder)) {
-      return { quantity: c.word.q, score: c.word.score, log: false, unit: remainder, unitHint: remainder, unitPlace: 'suffix', decoration: null };
+      return { quantity: c.word.q, score: Math.max(c.word.score, SCORE_PLAIN), log: false, unit: remainder, unitHint: remainder, unitPlace: 'suffix', decoration: null };
     }
     if (c.single) continue;
     const head = remainder[0];

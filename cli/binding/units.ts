@@ -199,7 +199,7 @@ const PREFIX: Readonly<Record<string, number>> = {
   Y: 1e24, Z: 1e21, E: 1e18, P: 1e15, T: 1e12, G: 1e9, M: 1e6, k: 1e3, h: 1e2,
   d: 1e-1, c: 1e-2, m: 1e-3, u: 1e-6, 'µ': 1e-6, 'μ': 1e-6, n: 1e-9, p: 1e-12, f: 1e-15, a: 1e-18,
 };
-const PREFIXABLE: Readonly<Record<string, UnitDef>> = { W: WATT, g: GRAM, m: METRE, pc: PC, arcsec: ARCSEC };
+const PREFIXABLE: Readonly<Record<string, UnitDef>> = { W: WATT, g: GRAM, m: METRE, pc: PC, arcsec: ARCSEC, K: KELVIN };
 
 /** A solar unit whose quantity depends on the column (`log10(Solar)` in NASA archive headers). */
 const SOLAR_WORDS = new Set(['solar', 'sun', 'sol']);

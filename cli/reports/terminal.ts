@@ -76,7 +76,7 @@ export function renderTerminal(
     for (const rep of r.reports) {
       const d = rep.details as { expectedByChance?: number; observed?: number };
       if (typeof d.expectedByChance === 'number') {
-        lines.push(c.dim(`${' '.repeat(2)}chance alone predicts ${d.expectedByChance} exceedances among the stars judged; ${d.observed} seen`));
+        lines.push(c.dim(`${' '.repeat(2)}chance alone predicts ${d.expectedByChance.toFixed(1)} exceedances among the stars judged; ${d.observed} seen`));
       }
     }
   }

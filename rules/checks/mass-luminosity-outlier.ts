@@ -162,7 +162,7 @@ export const massLuminosityOutlier: Rule = {
           expectedByChance: round6(twoSided * 2 * p + faintOnly * p),
           observed: exceed,
           intrinsicScatter: {
-            eker2018: EKER_SCATTER,
+            eker2018: EKER_SCATTER.map(({ upper, scatter }) => ({ upper, scatter })),
             tout1996BelowZams: ZAMS_FAINT_SCATTER,
             tout1996BrighteningAllowance: MS_BRIGHTENING_DEX,
             classic: CLASSIC_SCATTER,
