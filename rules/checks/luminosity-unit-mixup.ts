@@ -109,7 +109,9 @@ export const luminosityUnitMixup: Rule = {
           // What the rest of the row implies, and how sure that is.
           let expected = NaN;
           let sigma = NaN;
-          let basis = '';
+          // 0: nothing to compare with, 1: Stefan-Boltzmann, 2: mass-luminosity relation. The
+          // sentence for the message is only written when the rule fires.
+          let basis = 0;
           const r = radius ? radius.value[i] : NaN;
           const t = teff ? teff.value[i] : NaN;
           if (r > 0 && t > 0) {
@@ -117,7 +119,7 @@ export const luminosityUnitMixup: Rule = {
             const st = meanErr(teff!.errLo, teff!.errHi, i) / (t * LN10);
             expected = logLuminosityFromRadiusTeff(r, t);
             sigma = Math.sqrt(0.15 * 0.15 + 4 * sr * sr + 16 * st * st);
-            basis = `4 pi R^2 sigma Teff^4 from R = ${fmt(r)} R_sun and Teff = ${fmt(t)} K`;
+            basis = 1;
           } else {
             const m = mass ? mass.value[i] : NaN;
             if (m > 0) {
@@ -125,7 +127,7 @@ export const luminosityUnitMixup: Rule = {
               if ((cls === StarClass.MainSequence || cls === StarClass.Unknown) && relationAt('default', m, rel)) {
                 expected = rel.logL + rel.brightAllowance / 2;
                 sigma = relTol;
-                basis = `the main-sequence mass-luminosity relation at M = ${fmt(m)} M_sun`;
+                basis = 2;
               }
             }
           }
@@ -160,7 +162,6 @@ export const luminosityUnitMixup: Rule = {
               }
             }
             if (best < 0) continue;
-            basis = 'the range of luminosities stars have (no R, Teff or main-sequence mass in the row)';
           }
           fired++;
           firedByUnit[best]++;
@@ -168,6 +169,12 @@ export const luminosityUnitMixup: Rule = {
           if (buffer.length >= ROW_BUFFER_CAP) continue;
           const suggestedLog = readingLog(READINGS[best], v);
           const suggested = Math.pow(10, suggestedLog);
+          const basisText =
+            basis === 1
+              ? `4 pi R^2 sigma Teff^4 from R = ${fmt(r)} R_sun and Teff = ${fmt(t)} K`
+              : basis === 2
+                ? `the main-sequence mass-luminosity relation at M = ${fmt(mass!.value[i])} M_sun`
+                : 'the range of luminosities stars have (no R, Teff or main-sequence mass in the row)';
           const asDeclared = Number.isFinite(declaredLog) ? `as ${declaredUnit} it is log L = ${fmt(declaredLog, 3)}` : `it cannot be a linear luminosity`;
           buffer.push(
             rowFinding(batch, i, {
@@ -178,7 +185,7 @@ export const luminosityUnitMixup: Rule = {
               expected: Number.isFinite(expected)
                 ? { value: round6(Math.pow(10, expected)) ?? undefined, min: round6(Math.pow(10, expected - acceptSigma * sigma)) ?? undefined, max: round6(Math.pow(10, expected + acceptSigma * sigma)) ?? undefined, unit: 'solLum' }
                 : null,
-              message: `${lum.column} = ${fmt(v)} looks like ${READINGS[best].unit}, not ${declaredUnit}: ${asDeclared}, but ${basis} gives log L = ${Number.isFinite(expected) ? fmt(expected, 3) : 'a stellar value'}; read as ${READINGS[best].unit} it is ${fmt(suggested)} L_sun${Number.isFinite(bestDist) ? ` (${fmt(bestDist, 2)} dex away)` : ''}`,
+              message: `${lum.column} = ${fmt(v)} looks like ${READINGS[best].unit}, not ${declaredUnit}: ${asDeclared}, but ${basisText} gives log L = ${Number.isFinite(expected) ? fmt(expected, 3) : 'a stellar value'}; read as ${READINGS[best].unit} it is ${fmt(suggested)} L_sun${Number.isFinite(bestDist) ? ` (${fmt(bestDist, 2)} dex away)` : ''}`,
               suggestion: {
                 column: lum.column,
                 value: round6(declaredUnit.startsWith('log') ? suggestedLog : suggested) ?? suggested,

@@ -42,39 +42,45 @@ function inRange(massSun: number, z: number): boolean {
   return massSun >= TOUT_MIN_MASS && massSun <= TOUT_MAX_MASS && z >= TOUT_MIN_Z && z <= TOUT_MAX_Z;
 }
 
+/**
+ * The quartics evaluated at one metallicity, memoised for the last Z asked: catalog loops call
+ * these per row at one Z, and the 16 quartics would otherwise dominate the cost.
+ */
+function coefficientsAt<K extends string>(table: Record<K, Quartic>): (z: number) => Record<K, number> {
+  let lastZ = NaN;
+  let last: Record<K, number> | null = null;
+  return (z) => {
+    if (z !== lastZ || !last) {
+      last = Object.fromEntries(Object.entries<Quartic>(table).map(([k, c]) => [k, quartic(c, z)])) as Record<K, number>;
+      lastZ = z;
+    }
+    return last;
+  };
+}
+const lumAt = coefficientsAt(LUM);
+const radAt = coefficientsAt(RAD);
+
 /** ZAMS luminosity in L_sun for mass M (M_sun) and metallicity Z (mass fraction, default 0.02). */
 export function toutZamsLuminosity(massSun: number, metallicity = 0.02): number {
   if (!inRange(massSun, metallicity)) return NaN;
-  const z = Math.log10(metallicity / 0.02);
+  const c = lumAt(Math.log10(metallicity / 0.02));
   const m = massSun;
-  const num = quartic(LUM.alpha, z) * m ** 5.5 + quartic(LUM.beta, z) * m ** 11;
-  const den =
-    quartic(LUM.gamma, z) +
-    m ** 3 +
-    quartic(LUM.delta, z) * m ** 5 +
-    quartic(LUM.epsilon, z) * m ** 7 +
-    quartic(LUM.zeta, z) * m ** 8 +
-    quartic(LUM.eta, z) * m ** 9.5;
+  const m2 = m * m;
+  const m3 = m2 * m;
+  const m5 = m3 * m2;
+  const sq = Math.sqrt(m);
+  const num = c.alpha * m5 * sq + c.beta * m5 * m5 * m;
+  const den = c.gamma + m3 + c.delta * m5 + c.epsilon * m5 * m2 + c.zeta * m5 * m3 + c.eta * m5 * m3 * m * sq;
   return num / den;
 }
 
 /** ZAMS radius in R_sun for mass M (M_sun) and metallicity Z (default 0.02). */
 export function toutZamsRadius(massSun: number, metallicity = 0.02): number {
   if (!inRange(massSun, metallicity)) return NaN;
-  const z = Math.log10(metallicity / 0.02);
+  const c = radAt(Math.log10(metallicity / 0.02));
   const m = massSun;
-  const num =
-    quartic(RAD.theta, z) * m ** 2.5 +
-    quartic(RAD.iota, z) * m ** 6.5 +
-    quartic(RAD.kappa, z) * m ** 11 +
-    quartic(RAD.lambda, z) * m ** 19 +
-    quartic(RAD.mu, z) * m ** 19.5;
-  const den =
-    quartic(RAD.nu, z) +
-    quartic(RAD.xi, z) * m ** 2 +
-    quartic(RAD.omicron, z) * m ** 8.5 +
-    m ** 18.5 +
-    quartic(RAD.pi, z) * m ** 19.5;
+  const num = c.theta * m ** 2.5 + c.iota * m ** 6.5 + c.kappa * m ** 11 + c.lambda * m ** 19 + c.mu * m ** 19.5;
+  const den = c.nu + c.xi * m ** 2 + c.omicron * m ** 8.5 + m ** 18.5 + c.pi * m ** 19.5;
   return num / den;
 }
 
