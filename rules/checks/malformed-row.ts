@@ -1,4 +1,4 @@
-import { rowFinding } from '../engine/findings.js';
+import { problemFindings } from '../engine/findings.js';
 import type { Rule } from '../engine/types.js';
 
 const ID = 'malformed-row';
@@ -26,18 +26,7 @@ export const malformedRow: Rule = {
     return {
       check(batch, out, stats) {
         stats.checked += batch.length;
-        for (const p of batch.problems) {
-          if (p.kind !== 'malformed' || p.index < 0) continue;
-          out.push(
-            rowFinding(batch, p.index, {
-              rule: ID,
-              severity: 'error',
-              columns: p.column ? [p.column] : [],
-              values: {},
-              message: p.message,
-            }),
-          );
-        }
+        problemFindings(batch, 'malformed', ID, 'error', out);
       },
     };
   },

@@ -1,4 +1,4 @@
-import { rowFinding } from '../engine/findings.js';
+import { problemFindings } from '../engine/findings.js';
 import type { Rule } from '../engine/types.js';
 
 const ID = 'unparseable-value';
@@ -26,18 +26,7 @@ export const unparseableValue: Rule = {
     return {
       check(batch, out, stats) {
         stats.checked += batch.length;
-        for (const p of batch.problems) {
-          if (p.kind !== 'unparseable' || p.index < 0) continue;
-          out.push(
-            rowFinding(batch, p.index, {
-              rule: ID,
-              severity: 'warning',
-              columns: p.column ? [p.column] : [],
-              values: p.column ? { [p.column]: p.text } : {},
-              message: p.message,
-            }),
-          );
-        }
+        problemFindings(batch, 'unparseable', ID, 'warning', out);
       },
     };
   },

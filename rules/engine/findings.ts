@@ -1,4 +1,4 @@
-import type { Batch, ExpectedValue, Finding, Severity, Suggestion } from './types.js';
+import type { Batch, ExpectedValue, Finding, FindingSink, InputProblem, Severity, Suggestion } from './types.js';
 
 export interface RowFindingParts {
   rule: string;
@@ -65,4 +65,20 @@ export function fmt(x: number, digits = 4): string {
 /** Round for the machine-readable report: keeps 6 significant digits, enough to act on. */
 export function round6(x: number): number | null {
   return Number.isFinite(x) ? Number(x.toPrecision(6)) : null;
+}
+
+/** One finding per reader or binder problem of `kind` in the batch, each at its own row. */
+export function problemFindings(batch: Batch, kind: InputProblem['kind'], rule: string, severity: Severity, out: FindingSink): void {
+  for (const p of batch.problems) {
+    if (p.kind !== kind || p.index < 0) continue;
+    out.push(
+      rowFinding(batch, p.index, {
+        rule,
+        severity,
+        columns: p.column ? [p.column] : [],
+        values: p.column ? { [p.column]: p.text } : {},
+        message: p.message,
+      }),
+    );
+  }
 }

@@ -2,6 +2,7 @@ import { spawnSync } from 'node:child_process';
 import { existsSync, mkdtempSync, readFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
+import type { Finding } from '../../rules/engine/types.js';
 
 export const REPO = resolve(import.meta.dirname, '../..');
 export const SHARED = resolve(REPO, '../shared');
@@ -39,24 +40,9 @@ export function checkWithReport(args: string[]): CliResult & { report: Report } 
   return { ...r, report: JSON.parse(readFileSync(path, 'utf8')) as Report };
 }
 
-export interface ReportFinding {
-  rule: string;
-  severity: 'error' | 'warning' | 'note';
-  input: number;
-  scope: 'row' | 'column';
-  row: number | null;
-  line: number | null;
-  id: string | null;
-  columns: string[];
-  values: Record<string, unknown>;
-  expected: unknown;
-  message: string;
-  suggestion: { column: string; value: number; unit: string; text: string } | null;
-}
-
 export interface Report {
   format: string;
-  findings: ReportFinding[];
+  findings: Finding[];
   inputs: { path: string; format: string; records: number; rows: number; unparseableRecords: number; rowsWithFindings: number; notes: string[] }[];
   bindings: { columns: { quantity: string; column: string; unit: string }[]; notes: string[] }[];
   rules: { id: string; perInput: { status: string; checked: number; skipped: Record<string, number>; details: Record<string, unknown> }[] }[];

@@ -46,16 +46,17 @@ describe('openCatalog', () => {
   });
 
   it('gives InputErrors for an unknown format, a missing file, a directory and an unknown extension', async () => {
-    const cases: [Promise<unknown>, RegExp][] = [
-      [openCatalog(tmp.write('u.csv', 'a\n'), { format: 'fits-ish' }), /^unknown format 'fits-ish' .*known: arrow, csv, tsv/],
-      [openCatalog(tmp.dir + '/missing.csv', {}), /^cannot read .*missing\.csv: no such file or directory$/],
-      [openCatalog(tmp.dir + '/missing.csv', { format: 'csv' }), /^cannot read .*missing\.csv: /],
-      [openCatalog(tmp.dir, {}), /^cannot read .*: it is a directory$/],
-      [openCatalog(tmp.write('cat.dat', 'a,b\n'), {}), /cannot tell the format .*'\.dat'.*--format/],
-      [openCatalog(tmp.write('cat.csv.gz', gzipSync('a,b\n1,2\n')), {}), /gzip-compressed/],
+    // Thunks, so each open starts only when awaited: a rejection created early would go unhandled.
+    const cases: [() => Promise<unknown>, RegExp][] = [
+      [() => openCatalog(tmp.write('u.csv', 'a\n'), { format: 'fits-ish' }), /^unknown format 'fits-ish' .*known: arrow, csv, tsv/],
+      [() => openCatalog(tmp.dir + '/missing.csv', {}), /^cannot read .*missing\.csv: no such file or directory$/],
+      [() => openCatalog(tmp.dir + '/missing.csv', { format: 'csv' }), /^cannot read .*missing\.csv: /],
+      [() => openCatalog(tmp.dir, {}), /^cannot read .*: it is a directory$/],
+      [() => openCatalog(tmp.write('cat.dat', 'a,b\n'), {}), /cannot tell the format .*'\.dat'.*--format/],
+      [() => openCatalog(tmp.write('cat.csv.gz', gzipSync('a,b\n1,2\n')), {}), /gzip-compressed/],
     ];
-    for (const [promise, message] of cases) {
-      const err = await failure(promise);
+    for (const [open, message] of cases) {
+      const err = await failure(open());
       expect(err).toBeInstanceOf(InputError);
       expect((err as InputError).message).toMatch(message);
     }
