@@ -1,7 +1,7 @@
 import { columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
 import { markUnusable } from '../engine/usable.js';
 import type { Finding, Rule } from '../engine/types.js';
-import { StarClass, classifyStar } from '../physics/classify.js';
+import { StarClass, starClasses } from '../physics/classify.js';
 import { L_SUN_W } from '../physics/constants.js';
 import { relationAt, type RelationVerdictInput } from '../physics/relation-choice.js';
 import { logLuminosityFromRadiusTeff } from '../physics/stellar.js';
@@ -97,8 +97,7 @@ export const luminosityUnitMixup: Rule = {
         const radius = batch.quantities.radius ?? null;
         const teff = batch.quantities.teff ?? null;
         const mass = batch.quantities.mass ?? null;
-        const logg = batch.quantities.logg?.value ?? null;
-        const stage = batch.text.stage?.values ?? null;
+        const classes = starClasses(batch);
         for (let i = 0; i < batch.length; i++) {
           const v = raw[i];
           if (!Number.isFinite(v)) {
@@ -123,7 +122,7 @@ export const luminosityUnitMixup: Rule = {
           } else {
             const m = mass ? mass.value[i] : NaN;
             if (m > 0) {
-              const cls = classifyStar(stage ? stage[i] : null, logg ? logg[i] : NaN, m, r);
+              const cls = classes[i];
               if ((cls === StarClass.MainSequence || cls === StarClass.Unknown) && relationAt('default', m, rel)) {
                 expected = rel.logL + rel.brightAllowance / 2;
                 sigma = relTol;

@@ -1,7 +1,7 @@
 import { fmt, round6, rowFinding } from '../engine/findings.js';
 import { usableValues } from '../engine/usable.js';
 import type { Rule } from '../engine/types.js';
-import { STAR_CLASS_NAMES, StarClass, classifyStar } from '../physics/classify.js';
+import { STAR_CLASS_NAMES, StarClass, starClasses } from '../physics/classify.js';
 import {
   CLASSIC_SCATTER,
   EKER_SCATTER,
@@ -85,16 +85,14 @@ export const massLuminosityOutlier: Rule = {
         const logErrHi = lum.logErrHi ?? null;
         const mErrLo = mass.errLo;
         const mErrHi = mass.errHi;
-        const logg = batch.quantities.logg?.value ?? null;
-        const radius = batch.quantities.radius?.value ?? null;
-        const stage = batch.text.stage?.values ?? null;
+        const classes = starClasses(batch);
         for (let i = 0; i < batch.length; i++) {
           const mi = m[i];
           if (!(mi > 0) || !(l[i] > 0)) {
             stats.skip('mass or luminosity missing or unusable');
             continue;
           }
-          const cls = classifyStar(stage ? stage[i] : null, logg ? logg[i] : NaN, mi, radius ? radius[i] : NaN);
+          const cls = classes[i];
           if (cls !== StarClass.MainSequence && cls !== StarClass.Unknown) {
             stats.skip(`not a main-sequence star (${STAR_CLASS_NAMES[cls]})`);
             continue;

@@ -26,6 +26,8 @@ export function rowFinding(batch: Batch, index: number, parts: RowFindingParts):
     expected: parts.expected ?? null,
     message: parts.message,
     suggestion: parts.suggestion ?? null,
+    cause: null,
+    related: [],
   };
 }
 
@@ -48,6 +50,8 @@ export function columnFinding(parts: ColumnFindingParts): Finding {
     expected: parts.expected ?? null,
     message: parts.message,
     suggestion: parts.suggestion ?? null,
+    cause: null,
+    related: [],
   };
 }
 

@@ -64,10 +64,28 @@ class BatchBuffer implements FindingSink {
 
 const SEVERITY_ORDER: Record<Severity, number> = { error: 0, warning: 1, note: 2 };
 
+/**
+ * Links the findings that share a row: the likeliest root cause (a screening rule's finding, else
+ * the most severe, else the first rule in order) is named on the others, so a curator reads the
+ * cause first and one slip does not read as five independent problems. `group` is sorted.
+ */
+function linkRow(group: Finding[], rank: ReadonlyMap<string, number>): void {
+  if (group.length < 2) return;
+  const key = (f: Finding) => (rank.get(f.rule) ?? 0) * 10 + SEVERITY_ORDER[f.severity];
+  const root = group.reduce((a, b) => (key(b) < key(a) ? b : a));
+  const order = [root.rule, ...group.filter((f) => f !== root).map((f) => f.rule)];
+  for (const f of group) {
+    f.related = order.filter((r) => r !== f.rule);
+    f.cause = f === root ? null : root.rule;
+  }
+}
+
 /** Runs the selected rules over the batches of one input. The engine knows no rule by name. */
 export class InputRun {
   private readonly active: ActiveRule[] = [];
   private readonly reports = new Map<string, RuleReport>();
+  /** Rule order used to pick a row's root cause: screening rules first, then registry order. */
+  private readonly rank = new Map<string, number>();
   private rows = 0;
 
   constructor(
@@ -76,6 +94,7 @@ export class InputRun {
     bound: ReadonlyMap<Quantity, { column: string; unit: string }>,
     private readonly sink: FindingSink,
   ) {
+    rules.forEach((r, i) => this.rank.set(r.meta.id, (r.meta.stage === 'screen' ? 0 : 100) + i));
     for (const rule of rules) {
       const params = resolveParams(rule.meta, selection.params?.[rule.meta.id] ?? {});
       const missing = rule.meta.needs.filter((q) => !bound.has(q));
@@ -99,10 +118,15 @@ export class InputRun {
     this.rows += batch.length;
     const buffer = new BatchBuffer();
     for (const a of this.active) a.run.check(batch, buffer, a.stats);
-    buffer.items.sort(
-      (x, y) => (x.row ?? 0) - (y.row ?? 0) || SEVERITY_ORDER[x.severity] - SEVERITY_ORDER[y.severity],
-    );
-    for (const f of buffer.items) this.emit(f);
+    const items = buffer.items;
+    items.sort((x, y) => (x.row ?? 0) - (y.row ?? 0) || SEVERITY_ORDER[x.severity] - SEVERITY_ORDER[y.severity]);
+    for (let a = 0; a < items.length; ) {
+      let b = a + 1;
+      while (b < items.length && items[b].row === items[a].row) b++;
+      if (b - a > 1 && items[a].row !== null) linkRow(items.slice(a, b), this.rank);
+      a = b;
+    }
+    for (const f of items) this.emit(f);
   }
 
   /** Ends the input: whole-column rules judge now; returns each rule's accounting. */

@@ -150,6 +150,13 @@ export interface Finding {
   expected: ExpectedValue | null;
   message: string;
   suggestion: Suggestion | null;
+  /**
+   * When other rules fired on the same row: the rule whose finding most likely explains this one
+   * (a screening rule's, else the most severe), or null when this finding is that root itself.
+   */
+  cause: string | null;
+  /** The other rules that fired on the same row, the likely root cause first. */
+  related: string[];
 }
 
 export interface FindingSink {

@@ -1,3 +1,4 @@
+import type { Batch } from '../engine/types.js';
 import { loggFromMassRadius } from './stellar.js';
 
 /**
@@ -57,4 +58,27 @@ export function classifyStar(text: string | null | undefined, logg: number, mass
   if (Number.isFinite(logg)) return classFromLogg(logg);
   if (massSun > 0 && radiusSun > 0) return classFromLogg(loggFromMassRadius(massSun, radiusSun));
   return StarClass.Unknown;
+}
+
+
+const classCache = new WeakMap<Batch, Uint8Array>();
+
+/**
+ * The class of every row of a batch (StarClass codes), computed once per batch and shared by all
+ * rules, so that no rule applies a main-sequence relation to a giant or a white dwarf and all
+ * rules agree on what each star is.
+ */
+export function starClasses(batch: Batch): Uint8Array {
+  let out = classCache.get(batch);
+  if (out) return out;
+  out = new Uint8Array(batch.length);
+  const stage = batch.text.stage?.values ?? null;
+  const logg = batch.quantities.logg?.value ?? null;
+  const mass = batch.quantities.mass?.value ?? null;
+  const radius = batch.quantities.radius?.value ?? null;
+  for (let i = 0; i < batch.length; i++) {
+    out[i] = classifyStar(stage ? stage[i] : null, logg ? logg[i] : NaN, mass ? mass[i] : NaN, radius ? radius[i] : NaN);
+  }
+  classCache.set(batch, out);
+  return out;
 }
