@@ -1,7 +1,9 @@
 import { Command, CommanderError, Option } from 'commander';
 import { ConfigError } from '../rules/engine/params.js';
 import { BindingError } from './binding/types.js';
+import { acceptCommand } from './commands/accept.js';
 import { checkCommand } from './commands/check.js';
+import { compareCommand } from './commands/compare.js';
 import { columnsCommand } from './commands/columns.js';
 import { rulesCommand } from './commands/rules.js';
 import { FAIL_LEVELS } from './options.js';
@@ -26,6 +28,10 @@ export async function main(argv: string[]): Promise<number> {
     .description('check catalogs and report findings')
     .argument('<files...>', 'catalog files (CSV, TSV, Arrow IPC); - for CSV on stdin')
     .option('--report <path>', 'write the JSON findings report here (atomically)')
+    .option('--sarif <path>', 'write SARIF 2.1.0 for code-scanning annotations')
+    .option('--html <path>', 'write a self-contained HTML report with diagrams')
+    .option('--html-rows <n>', 'findings listed per rule in the HTML report', '50')
+    .option('--accepted <path>', 'findings reviewed and accepted earlier: counted, but they do not fail the run')
     .addOption(new Option('--fail-on <level>', 'exit 1 when a finding is at or above this severity').choices(FAIL_LEVELS as string[]).default('error'))
     .option('--rules <ids>', 'run only these rules (comma-separated)')
     .option('--skip <ids>', 'do not run these rules (comma-separated)')
@@ -55,6 +61,30 @@ export async function main(argv: string[]): Promise<number> {
     .option('--json', 'machine-readable output')
     .action(async (file: string, o) => {
       code = await columnsCommand(file, o);
+    });
+
+  program
+    .command('accept')
+    .description('record the findings of a report as reviewed and accepted')
+    .argument('<report>', 'a JSON report written by check --report')
+    .option('--out <path>', 'accepted-findings file to add to', 'starsieve-accepted.json')
+    .option('--reason <text>', 'why these findings are accepted')
+    .option('--by <name>', 'who accepted them (default: $USER)')
+    .option('--rules <ids>', 'only findings of these rules (comma-separated)')
+    .action((report: string, o) => {
+      code = acceptCommand(report, o);
+    });
+
+  program
+    .command('compare')
+    .description('findings new, fixed and unchanged between two reports (e.g. two releases)')
+    .argument('<old>', 'the earlier JSON report')
+    .argument('<new>', 'the later JSON report')
+    .addOption(new Option('--fail-on <level>', 'exit 1 when a new finding is at or above this severity').choices(FAIL_LEVELS as string[]).default('error'))
+    .option('--json', 'machine-readable output')
+    .option('--show <n>', 'new findings listed', '10')
+    .action((oldReport: string, newReport: string, o) => {
+      code = compareCommand(oldReport, newReport, o);
     });
 
   program

@@ -2,13 +2,22 @@ import { SEVERITIES, severityRank, type Finding, type FindingSink, type Severity
 import { selectRules } from '../../rules/engine/runner.js';
 import { ALL_RULES } from '../../rules/checks/index.js';
 import { bindOptionsFrom, selectionFrom, type FailLevel, type SelectionFlags } from '../options.js';
+import { AcceptedSet, readAccepted } from '../reports/accepted.js';
+import { fingerprint, inputName } from '../reports/fingerprint.js';
+import { writeHtml } from '../reports/html.js';
 import { JsonReportWriter } from '../reports/json-report.js';
+import { PlotData } from '../reports/plot-data.js';
+import { SarifWriter } from '../reports/sarif.js';
 import { TerminalCollector, renderTerminal } from '../reports/terminal.js';
 import { TOOL } from '../version.js';
 import { runInputs } from './run-inputs.js';
 
 export interface CheckFlags extends SelectionFlags {
   report?: string;
+  sarif?: string;
+  html?: string;
+  htmlRows?: string;
+  accepted?: string;
   failOn: FailLevel;
   bind: string[];
   unit: string[];
@@ -20,33 +29,63 @@ export interface CheckFlags extends SelectionFlags {
   quiet?: boolean;
 }
 
-class Tee implements FindingSink {
+/**
+ * Fans each finding out to the reports. Accepted findings are counted everywhere but are left
+ * out of the totals that decide the exit code.
+ */
+class Dispatch implements FindingSink {
   readonly totals: Record<Severity, number> = { error: 0, warning: 0, note: 0 };
-  constructor(private readonly sinks: FindingSink[]) {}
+  readonly failing: Record<Severity, number> = { error: 0, warning: 0, note: 0 };
+  constructor(
+    private readonly names: string[],
+    private readonly accepted: AcceptedSet,
+    private readonly json: JsonReportWriter | null,
+    private readonly sinks: FindingSink[],
+  ) {}
   push(f: Finding): void {
+    const fp = fingerprint(f, this.names[f.input] ?? String(f.input));
+    const ok = this.accepted.match(fp);
     this.totals[f.severity]++;
+    if (!ok) this.failing[f.severity]++;
+    this.json?.push(f, fp, ok);
     for (const s of this.sinks) s.push(f);
   }
 }
 
-/** `starsieve check`: lint the inputs, write the report, return the exit code (0 pass, 1 fail). */
+/** `starsieve check`: lint the inputs, write the reports, return the exit code (0 pass, 1 fail). */
 export async function checkCommand(paths: string[], flags: CheckFlags): Promise<number> {
   const selection = selectionFrom(flags);
   const rules = selectRules(ALL_RULES, selection);
   const bind = bindOptionsFrom(flags.bind, flags.unit);
+  const accepted = new AcceptedSet(flags.accepted ? readAccepted(flags.accepted) : null);
   const collector = new TerminalCollector(Math.max(0, Number(flags.show) || 0));
+  const htmlRows = Math.max(1, Number(flags.htmlRows ?? 50) || 50);
+  const htmlCollector = flags.html ? new TerminalCollector(htmlRows) : null;
+  const plot = flags.html ? new PlotData() : null;
+  const names = paths.map((p) => inputName(p));
   const writer = flags.report ? new JsonReportWriter(flags.report, TOOL) : null;
-  const tee = new Tee(writer ? [collector, writer] : [collector]);
-  const isTty = process.stderr.isTTY === true;
+  const sarif = flags.sarif ? new SarifWriter(flags.sarif, TOOL, rules, paths) : null;
+  const sinks: FindingSink[] = [collector];
+  if (sarif) sinks.push(sarif);
+  if (htmlCollector) sinks.push(htmlCollector);
+  if (plot) sinks.push(plot);
+  const dispatch = new Dispatch(names, accepted, writer, sinks);
+  const abortAll = () => {
+    writer?.abort();
+    sarif?.abort();
+  };
+  const isTty = process.stderr.isTTY === true && !flags.quiet;
   let lastProgress = 0;
+  const started = Date.now();
   const progress = (path: string, rows: number) => {
     const now = Date.now();
-    if (!isTty || now - lastProgress < 500) return;
+    if (!isTty || now - lastProgress < 500 || now - started < 1000) return;
     lastProgress = now;
-    process.stderr.write(`\r\x1b[Kstarsieve: ${path}: ${rows.toLocaleString('en-US')} rows`);
+    const rate = rows / ((now - started) / 1000);
+    process.stderr.write(`\r\x1b[Kstarsieve: ${path}: ${rows.toLocaleString('en-US')} rows, ${Math.round(rate).toLocaleString('en-US')} rows/s`);
   };
   const onSignal = (sig: NodeJS.Signals) => {
-    writer?.abort();
+    abortAll();
     process.stderr.write(`\nstarsieve: interrupted by ${sig}; no report written, any earlier report is left as it was\n`);
     process.exit(130);
   };
@@ -61,39 +100,62 @@ export async function checkCommand(paths: string[], flags: CheckFlags): Promise<
       format: flags.format,
       delimiter: flags.delimiter,
       batchSize: flags.batchSize ? Number(flags.batchSize) : undefined,
-      sink: tee,
+      sink: dispatch,
       progress,
+      observe: plot ? (b) => plot.observe(b) : undefined,
     });
     if (isTty && lastProgress) process.stderr.write('\r\x1b[K');
-    const failed = flags.failOn !== 'never' && SEVERITIES.some((s) => tee.totals[s] > 0 && severityRank(s) >= severityRank(flags.failOn as Severity));
-    const ruleRows = rules.map((r) => ({ id: r.meta.id, reports: results.map((x) => x.rules.find((y) => y.id === r.meta.id)!) }));
+    const failed =
+      flags.failOn !== 'never' && SEVERITIES.some((s) => dispatch.failing[s] > 0 && severityRank(s) >= severityRank(flags.failOn as Severity));
+    const ruleRows = rules.map((r) => ({ id: r.meta.id, title: r.meta.title, severity: r.meta.severity, reports: results.map((x) => x.rules.find((y) => y.id === r.meta.id)!) }));
+    const stale = accepted.stale();
+    const createdAt = new Date().toISOString();
     writer?.commit({
       inputs: results.map((r) => r.summary),
       bindings: results.map((r, i) => ({ input: i, columns: r.binding.columns, notes: r.binding.notes })),
-      rules: rules.map((r) => ({
-        id: r.meta.id,
-        title: r.meta.title,
-        severity: r.meta.severity,
-        perInput: results.map((x, i) => ({ input: i, ...x.rules.find((y) => y.id === r.meta.id)! })),
-      })),
+      rules: ruleRows.map((r) => ({ id: r.id, title: r.title, severity: r.severity, perInput: r.reports.map((x, i) => ({ input: i, ...x })) })),
       summary: {
-        findings: tee.totals,
+        findings: dispatch.totals,
         byRule: Object.fromEntries(rules.map((r) => [r.meta.id, collector.counts.get(r.meta.id) ?? { error: 0, warning: 0, note: 0 }])),
         rows: results.reduce((a, r) => a + r.summary.rows, 0),
         rowsWithFindings: results.reduce((a, r) => a + r.summary.rowsWithFindings, 0),
         failOn: flags.failOn,
         failed,
+        accepted: { matched: accepted.accepted, stale },
       },
     });
+    sarif?.commit();
+    if (flags.html && plot && htmlCollector) {
+      plot.flush();
+      writeHtml(flags.html, {
+        tool: TOOL,
+        createdAt,
+        inputs: results.map((r) => r.summary),
+        bindings: results.map((r) => r.binding),
+        rules: ruleRows,
+        counts: htmlCollector.counts,
+        shown: htmlCollector.shown,
+        perRule: htmlRows,
+        plot,
+        failOn: flags.failOn,
+        failed,
+      });
+    }
     if (!flags.quiet) {
       process.stdout.write(
         renderTerminal(results.map((r) => r.summary), ruleRows, collector, { color: flags.color, failOn: flags.failOn, failed }),
       );
-      if (flags.report) process.stdout.write(`report written to ${flags.report}\n`);
+      if (flags.accepted) {
+        process.stdout.write(`accepted: ${accepted.accepted} finding${accepted.accepted === 1 ? '' : 's'} matched ${flags.accepted}; ${stale.length} stale entr${stale.length === 1 ? 'y' : 'ies'} match nothing\n`);
+        for (const e of stale.slice(0, 5)) process.stdout.write(`  stale: ${e.fingerprint} ${e.rule ?? ''} ${e.id ?? (e.row ? `row ${e.row}` : '')}\n`);
+      }
+      for (const [what, path] of [['report', flags.report], ['SARIF', flags.sarif], ['HTML report', flags.html]] as const) {
+        if (path) process.stdout.write(`${what} written to ${path}\n`);
+      }
     }
     return failed ? 1 : 0;
   } catch (e) {
-    writer?.abort();
+    abortAll();
     throw e;
   } finally {
     process.removeListener('SIGINT', onSignal);

@@ -1,6 +1,6 @@
 import type { Quantity } from '../../rules/engine/quantities.js';
 import { InputRun, type RuleReport, type RuleSelection } from '../../rules/engine/runner.js';
-import type { Finding, FindingSink, Rule } from '../../rules/engine/types.js';
+import type { Batch, Finding, FindingSink, Rule } from '../../rules/engine/types.js';
 import { bindColumns, toBatch } from '../binding/bind.js';
 import type { Binding, BindOptions } from '../binding/types.js';
 import { openCatalog } from '../readers/open.js';
@@ -18,6 +18,8 @@ export interface RunInputsOptions {
   sink: FindingSink;
   /** Called now and then with rows read so far, for a progress line. */
   progress?: (path: string, rows: number) => void;
+  /** Called with each batch after the rules have run over it (plots). */
+  observe?: (batch: Batch) => void;
 }
 
 export interface InputResult {
@@ -58,7 +60,9 @@ export async function runInputs(opts: RunInputsOptions): Promise<InputResult[]> 
       const run = new InputRun(opts.rules, opts.selection, bound, tally);
       let rows = 0;
       const feed = (raw: RawBatch) => {
-        run.processBatch(toBatch(raw, binding, index));
+        const batch = toBatch(raw, binding, index);
+        run.processBatch(batch);
+        opts.observe?.(batch);
         rows += raw.length;
         opts.progress?.(path, rows);
       };

@@ -1,4 +1,4 @@
-import type { Finding, FindingSink } from '../../rules/engine/types.js';
+import type { Finding } from '../../rules/engine/types.js';
 import { AtomicFile } from './atomic-file.js';
 
 export const REPORT_FORMAT = 'starsieve-findings';
@@ -16,7 +16,7 @@ export interface ReportTail {
  * summary (known only at the end) after them. Key order in JSON carries no meaning, so nothing
  * needs to be held back. Described by findings-report.schema.json.
  */
-export class JsonReportWriter implements FindingSink {
+export class JsonReportWriter {
   private readonly file: AtomicFile;
   private count = 0;
 
@@ -27,8 +27,9 @@ export class JsonReportWriter implements FindingSink {
     );
   }
 
-  push(f: Finding): void {
-    this.file.write((this.count++ === 0 ? '\n' : ',\n') + JSON.stringify(f));
+  /** One finding, with the identity other runs match it by and whether it was accepted. */
+  push(f: Finding, fingerprint: string, accepted: boolean): void {
+    this.file.write((this.count++ === 0 ? '\n' : ',\n') + JSON.stringify({ ...f, fingerprint, accepted }));
   }
 
   commit(tail: ReportTail): void {
