@@ -1,4 +1,5 @@
 import { readFileSync } from 'node:fs';
+import { parseDocument } from 'yaml';
 import { ConfigError } from '../../rules/engine/params.js';
 
 export const ACCEPTED_FORMAT = 'starsieve-accepted';
@@ -22,11 +23,14 @@ export interface AcceptedFile {
   entries: AcceptedEntry[];
 }
 
-/** Line and column of a character offset, for messages about a hand-edited file. */
-function position(text: string, offset: number): string {
-  const before = text.slice(0, offset);
-  const line = before.split('\n').length;
-  return `line ${line}, column ${offset - before.lastIndexOf('\n')}`;
+/**
+ * Where a hand-edited JSON file breaks. Node's JSON.parse does not always say, so the text is
+ * parsed again as YAML (JSON is YAML), whose errors carry a line and column.
+ */
+function position(text: string): string {
+  const err = parseDocument(text).errors[0];
+  const at = err?.linePos?.[0];
+  return at ? ` at line ${at.line}, column ${at.col}` : '';
 }
 
 /**
@@ -45,8 +49,7 @@ export function readAccepted(path: string): AcceptedFile {
   try {
     data = JSON.parse(text);
   } catch (e) {
-    const m = /position (\d+)/.exec((e as Error).message);
-    throw new ConfigError(`${path}: not valid JSON${m ? ` at ${position(text, Number(m[1]))}` : ''}: ${(e as Error).message}`);
+    throw new ConfigError(`${path}: not valid JSON${position(text)}: ${(e as Error).message}`);
   }
   const d = data as Partial<AcceptedFile>;
   if (!d || typeof d !== 'object' || d.format !== ACCEPTED_FORMAT) throw new ConfigError(`${path}: not an accepted-findings file (needs "format": "${ACCEPTED_FORMAT}")`);
