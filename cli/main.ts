@@ -46,6 +46,7 @@ export async function main(argv: string[]): Promise<number> {
     .option('--show <n>', 'findings shown per rule in the terminal', '3')
     .option('--no-color', 'no colour even on a terminal')
     .option('--quiet', 'print nothing but errors')
+    .addOption(new Option('--print <form>', 'form of the summary on stdout').choices(['text', 'json']).default('text'))
     .action(async (files: string[], o) => {
       code = await checkCommand(files, { ...o, color: o.color !== false && process.stdout.isTTY === true && !process.env.NO_COLOR });
     });

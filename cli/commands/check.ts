@@ -27,6 +27,7 @@ export interface CheckFlags extends SelectionFlags {
   show: string;
   color: boolean;
   quiet?: boolean;
+  print?: 'text' | 'json';
 }
 
 /**
@@ -110,19 +111,20 @@ export async function checkCommand(paths: string[], flags: CheckFlags): Promise<
     const ruleRows = rules.map((r) => ({ id: r.meta.id, title: r.meta.title, severity: r.meta.severity, reports: results.map((x) => x.rules.find((y) => y.id === r.meta.id)!) }));
     const stale = accepted.stale();
     const createdAt = new Date().toISOString();
+    const summary = {
+      findings: dispatch.totals,
+      byRule: Object.fromEntries(rules.map((r) => [r.meta.id, collector.counts.get(r.meta.id) ?? { error: 0, warning: 0, note: 0 }])),
+      rows: results.reduce((a, r) => a + r.summary.rows, 0),
+      rowsWithFindings: results.reduce((a, r) => a + r.summary.rowsWithFindings, 0),
+      failOn: flags.failOn,
+      failed,
+      accepted: { matched: accepted.accepted, stale },
+    };
     writer?.commit({
       inputs: results.map((r) => r.summary),
       bindings: results.map((r, i) => ({ input: i, columns: r.binding.columns, notes: r.binding.notes })),
       rules: ruleRows.map((r) => ({ id: r.id, title: r.title, severity: r.severity, perInput: r.reports.map((x, i) => ({ input: i, ...x })) })),
-      summary: {
-        findings: dispatch.totals,
-        byRule: Object.fromEntries(rules.map((r) => [r.meta.id, collector.counts.get(r.meta.id) ?? { error: 0, warning: 0, note: 0 }])),
-        rows: results.reduce((a, r) => a + r.summary.rows, 0),
-        rowsWithFindings: results.reduce((a, r) => a + r.summary.rowsWithFindings, 0),
-        failOn: flags.failOn,
-        failed,
-        accepted: { matched: accepted.accepted, stale },
-      },
+      summary,
     });
     sarif?.commit();
     if (flags.html && plot && htmlCollector) {
@@ -141,7 +143,10 @@ export async function checkCommand(paths: string[], flags: CheckFlags): Promise<
         failed,
       });
     }
-    if (!flags.quiet) {
+    if (flags.print === 'json' && !flags.quiet) {
+      const perRule = ruleRows.map((r) => ({ id: r.id, counts: collector.counts.get(r.id) ?? { error: 0, warning: 0, note: 0 }, first: collector.shown.get(r.id) ?? [], perInput: r.reports }));
+      process.stdout.write(JSON.stringify({ inputs: results.map((r) => r.summary), rules: perRule, summary }, null, 2) + '\n');
+    } else if (!flags.quiet) {
       process.stdout.write(
         renderTerminal(results.map((r) => r.summary), ruleRows, collector, { color: flags.color, failOn: flags.failOn, failed }),
       );

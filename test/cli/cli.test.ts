@@ -91,6 +91,14 @@ describe('command line', () => {
     expect(JSON.parse(readFileSync(report, 'utf8'))).toEqual({ earlier: true });
   });
 
+  it('prints the summary as JSON on request', () => {
+    const r = cli(['check', 'sample-catalogs/thistlewood-dr1.csv', '--print', 'json', '--fail-on', 'never']);
+    expect(r.code).toBe(0);
+    const j = JSON.parse(r.stdout);
+    expect(j.summary.rows).toBe(3000);
+    expect(j.rules.map((x: { id: string }) => x.id)).toContain('eddington-limit');
+  });
+
   it('lists the rules, as text and as JSON', () => {
     const t = cli(['rules']);
     expect(t.code).toBe(0);
