@@ -9,6 +9,7 @@ import {
   RELATION_CHOICES,
   RELATION_NAMES,
   ZAMS_FAINT_SCATTER,
+  metallicityZamsAt,
   relationAt,
   type RelationChoice,
   type RelationVerdictInput,
@@ -30,7 +31,7 @@ export const massLuminosityOutlier: Rule = {
     severity: 'warning',
     stage: 'judge',
     needs: ['mass', 'luminosity'],
-    uses: ['logg', 'radius', 'stage', 'id'],
+    uses: ['logg', 'radius', 'stage', 'feh', 'id'],
     params: [
       {
         name: 'threshold',
@@ -70,6 +71,27 @@ export const massLuminosityOutlier: Rule = {
     const threshold = ctx.params.threshold as number;
     const choice = ctx.params.relation as RelationChoice;
     const rel: RelationVerdictInput = { relation: '', logL: NaN, slope: NaN, scatter: NaN, brightAllowance: 0 };
+    const zrel: RelationVerdictInput = { relation: '', logL: NaN, slope: NaN, scatter: NaN, brightAllowance: 0 };
+    let logErrLo: Float64Array | null = null;
+    let logErrHi: Float64Array | null = null;
+    let mErrLo: Float64Array | null = null;
+    let mErrHi: Float64Array | null = null;
+    let m: Float64Array = new Float64Array(0);
+    /**
+     * Deviation of log L from a relation in combined sigma: 0 inside the relation (or inside the
+     * brightening band above a ZAMS bound), positive above, negative below. Errors are taken on
+     * the side that faces the relation.
+     */
+    const zScore = (r: RelationVerdictInput, li: number, i: number): number => {
+      let resid = li - r.logL;
+      if (resid > 0) resid = Math.max(0, resid - r.brightAllowance);
+      if (resid === 0) return 0;
+      const sL = resid > 0 ? (logErrLo?.[i] ?? NaN) : (logErrHi?.[i] ?? NaN);
+      const dM = resid > 0 ? (mErrHi?.[i] ?? NaN) : (mErrLo?.[i] ?? NaN);
+      const sLogM = Number.isFinite(dM) ? dM / (m[i] * LN10) : 0;
+      const sigma = Math.sqrt(r.scatter * r.scatter + (Number.isFinite(sL) ? sL * sL : 0) + r.slope * r.slope * sLogM * sLogM);
+      return resid / sigma;
+    };
     const judgedBy = new Map<string, number>();
     let twoSided = 0;
     let faintOnly = 0;
@@ -78,13 +100,14 @@ export const massLuminosityOutlier: Rule = {
       check(batch, out, stats) {
         const mass = batch.quantities.mass!;
         const lum = batch.quantities.luminosity!;
-        const m = usableValues(batch, 'mass')!;
+        m = usableValues(batch, 'mass')!;
         const l = usableValues(batch, 'luminosity')!;
         const logL = lum.log!;
-        const logErrLo = lum.logErrLo ?? null;
-        const logErrHi = lum.logErrHi ?? null;
-        const mErrLo = mass.errLo;
-        const mErrHi = mass.errHi;
+        logErrLo = lum.logErrLo ?? null;
+        logErrHi = lum.logErrHi ?? null;
+        mErrLo = mass.errLo;
+        mErrHi = mass.errHi;
+        const feh = batch.quantities.feh?.value ?? null;
         const classes = starClasses(batch);
         for (let i = 0; i < batch.length; i++) {
           const mi = m[i];
@@ -107,20 +130,22 @@ export const massLuminosityOutlier: Rule = {
           else twoSided++;
           judgedBy.set(rel.relation, (judgedBy.get(rel.relation) ?? 0) + 1);
           const li = logL[i];
-          // Residual from the nearest acceptable value: the relation, or the top of the
-          // main-sequence brightening band above a ZAMS bound.
-          let resid = li - rel.logL;
-          if (resid > 0) resid = Math.max(0, resid - rel.brightAllowance);
-          if (resid === 0 || (onlyFaint && resid > 0)) continue;
-          // Errors on the side that faces the relation.
-          const sL = resid > 0 ? (logErrLo?.[i] ?? NaN) : (logErrHi?.[i] ?? NaN);
-          const dM = resid > 0 ? (mErrHi?.[i] ?? NaN) : (mErrLo?.[i] ?? NaN);
-          const sLogM = Number.isFinite(dM) ? dM / (mi * LN10) : 0;
-          const sigma = Math.sqrt(
-            rel.scatter * rel.scatter + (Number.isFinite(sL) ? sL * sL : 0) + rel.slope * rel.slope * sLogM * sLogM,
-          );
-          const z = resid / sigma;
+          let z = zScore(rel, li, i);
+          // With [Fe/H] bound, a star is flagged only if the ZAMS at its own metallicity does not
+          // explain it either; the smaller deviation is the one reported.
+          const fehI = feh ? feh[i] : NaN;
+          if (z !== 0 && Number.isFinite(fehI) && metallicityZamsAt(mi, fehI, zrel)) {
+            const zz = zScore(zrel, li, i);
+            if (Math.sign(zz) !== Math.sign(z) || Math.abs(zz) <= threshold) z = 0;
+            else if (Math.abs(zz) < Math.abs(z)) {
+              z = zz;
+              Object.assign(rel, zrel);
+            }
+          }
+          if (onlyFaint && z > 0) continue;
           if (Math.abs(z) <= threshold) continue;
+          const resid = li - rel.logL;
+          const sigma = Math.abs((resid > 0 ? Math.max(0, resid - rel.brightAllowance) : resid) / z);
           exceed++;
           const side = resid > 0 ? 'above' : 'below';
           const relName = RELATION_NAMES[rel.relation] ?? rel.relation;

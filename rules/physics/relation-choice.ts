@@ -1,4 +1,5 @@
 import { CLASSIC, EKER_2018, TOUT_1996, type MassLuminosityRelation } from './mass-luminosity.js';
+import { TOUT_MAX_Z, TOUT_MIN_Z, metallicityFromFeH, toutZamsLuminosity } from './zams.js';
 
 /**
  * How a star's luminosity is judged against a mass-luminosity relation at its mass: either
@@ -94,7 +95,30 @@ export function relationAt(choice: RelationChoice, m: number, out: RelationVerdi
 }
 
 export const RELATION_NAMES: Record<string, string> = {
+  'tout1996-feh': "Tout et al. 1996 ZAMS at the star's [Fe/H]",
   [EKER_2018.id]: EKER_2018.name,
   [CLASSIC.id]: CLASSIC.name,
   [TOUT_1996.id]: TOUT_1996.name,
 };
+
+/**
+ * The Tout et al. 1996 ZAMS at the star's own metallicity (Z = 0.02 x 10^[Fe/H], clamped to the
+ * fit's 1e-4..0.03), as a faint bound with the main-sequence brightening allowance above it. A
+ * metal-poor star is brighter at a given mass than the solar-metallicity relations say (at
+ * 1 M_sun, Z = 1e-4 gives 1.59 L_sun against 0.70 at Z = 0.02, physics-reference.md §5), so this
+ * band keeps it from being judged over-luminous, and a metal-rich one from being judged faint.
+ */
+export function metallicityZamsAt(m: number, feh: number, out: RelationVerdictInput): boolean {
+  const z = Math.min(TOUT_MAX_Z, Math.max(TOUT_MIN_Z, metallicityFromFeH(feh)));
+  const logL = Math.log10(toutZamsLuminosity(m, z));
+  if (!Number.isFinite(logL)) {
+    out.relation = '';
+    return false;
+  }
+  out.relation = 'tout1996-feh';
+  out.logL = logL;
+  out.slope = TOUT_1996.slope(m);
+  out.scatter = ZAMS_FAINT_SCATTER;
+  out.brightAllowance = MS_BRIGHTENING_DEX;
+  return true;
+}

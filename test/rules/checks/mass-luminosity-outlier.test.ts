@@ -88,3 +88,24 @@ describe('mass-luminosity-outlier', () => {
     expect(findings).toEqual([]);
   });
 });
+
+describe('mass-luminosity-outlier with [Fe/H]', () => {
+  it('does not call a metal-poor star over-luminous when its own ZAMS explains it', () => {
+    // Tout et al. 1996: at 1 M_sun the ZAMS gives 1.5863 L_sun at Z = 1e-4 against 0.69772 at
+    // Z = 0.02 (physics-reference.md §5, derived from the published coefficients).
+    expect(toutZamsLuminosity(1, 1e-4)).toBeCloseTo(1.5863, 3);
+    // 0.8 M_sun at log L = -0.01: 0.55 dex above Eker 2018 (3.7 sigma at 0.15 dex scatter), but
+    // inside the brightening band above the Z = 1e-4 ZAMS ([Fe/H] = -2.3).
+    const l = 10 ** -0.01;
+    const solar = run({ mass: { values: [0.8] }, luminosity: { values: [l] }, logg: { values: [4.5] } });
+    expect(solar.findings).toHaveLength(1);
+    const poor = run({ mass: { values: [0.8] }, luminosity: { values: [l] }, logg: { values: [4.5] }, feh: { values: [-2.3] } });
+    expect(poor.findings).toEqual([]);
+  });
+
+  it('still flags a star that neither relation explains, naming the closer one', () => {
+    const { findings } = run({ mass: { values: [0.8] }, luminosity: { values: [10 ** 1.5] }, logg: { values: [4.5] }, feh: { values: [-2.3] } });
+    expect(findings).toHaveLength(1);
+    expect(findings[0].values.relation).toBe('tout1996-feh');
+  });
+});
