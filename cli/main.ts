@@ -1,4 +1,4 @@
-import { Command, CommanderError, Option } from 'commander';
+import { Command, CommanderError, InvalidArgumentError, Option } from 'commander';
 import { ConfigError } from '../rules/engine/params.js';
 import { BindingError } from './binding/types.js';
 import { acceptCommand } from './commands/accept.js';
@@ -7,6 +7,7 @@ import { compareCommand } from './commands/compare.js';
 import { columnsCommand } from './commands/columns.js';
 import { rulesCommand } from './commands/rules.js';
 import { FAIL_LEVELS } from './options.js';
+import { FORMAT_NAMES } from './readers/open.js';
 import { InputError } from './readers/types.js';
 import { TOOL } from './version.js';
 
@@ -21,12 +22,19 @@ export async function main(argv: string[]): Promise<number> {
     .exitOverride()
     .configureOutput({ writeErr: (s) => process.stderr.write(s) });
 
-  const formatOption = () => new Option('--format <format>', 'input format instead of detecting it').choices(['csv', 'tsv', 'arrow']);
+  const formatOption = () => new Option('--format <format>', 'input format instead of detecting it').choices(FORMAT_NAMES as string[]);
+  const wholeNumber = (v: string) => {
+    if (!/^\d+$/.test(v.trim())) throw new InvalidArgumentError('it must be a whole number.');
+    return Number(v);
+  };
+  const hduOption = () => new Option('--hdu <n>', 'FITS: read this HDU (0 = primary; default: the first binary table)').argParser(wholeNumber);
+  const tableOption = () => new Option('--table <n>', 'VOTable: read the n-th TABLE (1 = the first, the default)').argParser(wholeNumber);
+  const bindingOption = () => new Option('--binding <file>', 'binding file: which column is which quantity, unit and error (YAML or JSON; see README)');
 
   program
     .command('check')
     .description('check catalogs and report findings')
-    .argument('<files...>', 'catalog files (CSV, TSV, Arrow IPC); - for CSV on stdin')
+    .argument('<files...>', 'catalog files (CSV, TSV, ECSV, FITS, VOTable, Parquet, Arrow IPC; text formats and FITS also .gz); - for CSV on stdin')
     .option('--report <path>', 'write the JSON findings report here (atomically)')
     .option('--sarif <path>', 'write SARIF 2.1.0 for code-scanning annotations')
     .option('--html <path>', 'write a self-contained HTML report with diagrams')
@@ -40,7 +48,10 @@ export async function main(argv: string[]): Promise<number> {
     .option('--hydrogen <X>', 'hydrogen mass fraction for eddington-limit (default 0.7)')
     .option('--bind <column=quantity>', 'bind a column to a quantity, e.g. lum=luminosity, e_lum=luminosity.err, flag=none (repeatable)', collect, [])
     .option('--unit <column=unit>', 'read a column in this unit, e.g. lum=W (repeatable)', collect, [])
+    .addOption(bindingOption())
     .addOption(formatOption())
+    .addOption(hduOption())
+    .addOption(tableOption())
     .option('--delimiter <char>', 'CSV delimiter instead of detecting it')
     .option('--batch-size <rows>', 'rows per batch')
     .option('--show <n>', 'findings shown per rule in the terminal', '3')
@@ -57,7 +68,10 @@ export async function main(argv: string[]): Promise<number> {
     .argument('<file>', 'catalog file')
     .option('--bind <column=quantity>', 'bind a column to a quantity (repeatable)', collect, [])
     .option('--unit <column=unit>', 'read a column in this unit (repeatable)', collect, [])
+    .addOption(bindingOption())
     .addOption(formatOption())
+    .addOption(hduOption())
+    .addOption(tableOption())
     .option('--delimiter <char>', 'CSV delimiter instead of detecting it')
     .option('--json', 'machine-readable output')
     .action(async (file: string, o) => {
@@ -105,7 +119,12 @@ export async function main(argv: string[]): Promise<number> {
   } catch (e) {
     if (e instanceof CommanderError) return e.exitCode === 0 ? 0 : 2;
     if (e instanceof InputError) {
-      process.stderr.write(`starsieve: ${e.path}${e.position ? `:${e.position}` : ''}: ${e.message}\n`);
+      // Reader messages mostly start with the input's name already; say it once, and the position once.
+      const named = e.message.startsWith(e.path) || e.message.startsWith('standard input');
+      const at = e.position && !e.message.includes(e.position) ? e.position : null;
+      process.stderr.write(
+        named ? `starsieve: ${e.message}${at ? ` (at ${at})` : ''}\n` : `starsieve: ${e.path}${e.position ? `:${e.position}` : ''}: ${e.message}\n`,
+      );
       return 2;
     }
     if (e instanceof BindingError || e instanceof ConfigError) {

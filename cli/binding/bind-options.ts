@@ -34,6 +34,26 @@ function quantityNamed(name: string): Quantity | null {
   return null;
 }
 
+/** Where options came from when not from the command line: column -> `the binding file b.yaml, line 3`. */
+export interface BindOrigins {
+  /** Where each `bind` entry came from. */
+  origins?: Readonly<Record<string, string>>;
+  /** Where each `units` entry came from. */
+  unitOrigins?: Readonly<Record<string, string>>;
+}
+
+/** How messages name the source of a column's role: `--bind`, or the binding-file line. */
+export function optionOrigin(options: BindOptions, column: string): string {
+  const origins = (options as BindOptions & BindOrigins).origins;
+  return origins !== undefined && Object.hasOwn(origins, column) ? origins[column] : '--bind';
+}
+
+/** The same for a column's unit: `--unit`, or the binding-file line. */
+export function unitOrigin(options: BindOptions, column: string): string {
+  const origins = (options as BindOptions & BindOrigins).unitOrigins;
+  return origins !== undefined && Object.hasOwn(origins, column) ? origins[column] : '--unit';
+}
+
 /** The --unit value for a column; own keys only, so a column called `constructor` is just a name. */
 export function optionUnit(options: BindOptions, column: string): string | null {
   return Object.hasOwn(options.units, column) ? options.units[column] : null;

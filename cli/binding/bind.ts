@@ -16,7 +16,7 @@ import {
 } from '../../rules/engine/quantities.js';
 import type { ColumnMeta, RawBatch } from '../readers/types.js';
 import type { BindContext, Candidate, Chosen, Resolved } from './bind-context.js';
-import { checkUnitText, parseOptionRole, roleText, type OptionRole } from './bind-options.js';
+import { checkUnitText, optionOrigin, parseOptionRole, roleText, type OptionRole } from './bind-options.js';
 import { readNumbers } from './cells.js';
 import { convertValues, quantityUnit, valueSpec } from './convert.js';
 import { guessName, guessNames, type NameGuess, type NameRole } from './names.js';
@@ -146,7 +146,7 @@ class Binder implements BindContext {
   private readOptions(): void {
     const valueOwner = new Map<string, string>();
     for (const [col, role] of Object.entries(this.options.bind)) {
-      const i = this.column(col, '--bind');
+      const i = this.column(col, optionOrigin(this.options, col));
       const r = parseOptionRole(col, role);
       this.optionRoles.set(i, r);
       if (r === 'none') continue;
@@ -253,14 +253,15 @@ class Binder implements BindContext {
   }
 
   /**
-   * PHL's `S_LOG_LUM` beside `S_LUMINOSITY`, the RSG table's `log(R/R.)` beside `R*`: one quantity
-   * written twice, log and linear. When the sample shows the same values, bind one (the one with
-   * uncertainties, else the linear one) and say so; otherwise it stays ambiguous.
+   * PHL's `S_LOG_LUM` beside `S_LUMINOSITY`, the RSG table's `log(R/R.)` beside `R*`, sdb's
+   * `plx_value` (mas) beside `plx_arcsec`: one quantity written twice, log and linear or in two
+   * units. When the sample shows the same values, bind one (the one with uncertainties, else the
+   * linear one, else the first) and say so; otherwise it stays ambiguous.
    */
   private sameValuesTwice(q: NumericQuantity, tops: { cand: Candidate; resolved: Resolved }[]): { cand: Candidate; resolved: Resolved } | null {
     if (tops.length !== 2) return null;
     const [a, b] = tops;
-    if (a.resolved.qu.log === b.resolved.qu.log) return null;
+    if (a.resolved.qu.log === b.resolved.qu.log && a.resolved.unit === b.resolved.unit) return null;
     const la = this.sampleLog(a.cand, a.resolved);
     const lb = this.sampleLog(b.cand, b.resolved);
     if (!la || !lb) return null;
@@ -279,7 +280,8 @@ class Binder implements BindContext {
     const pick = ea !== eb ? (ea ? a : b) : a.resolved.qu.log ? b : a;
     const other = pick === a ? b : a;
     this.notes.push(
-      `\`${other.cand.column}\` repeats \`${pick.cand.column}\` (${agree} of ${n} sample rows agree within 0.01 dex, one log and one linear); ` +
+      `\`${other.cand.column}\` repeats \`${pick.cand.column}\` (${agree} of ${n} sample rows agree within 0.01 dex, ` +
+        `${a.resolved.qu.log !== b.resolved.qu.log ? 'one log and one linear' : `in ${a.resolved.unit} and ${b.resolved.unit}`}); ` +
         `\`${pick.cand.column}\` was bound as ${QUANTITY_INFO[q].label}${ea !== eb ? ' because it has uncertainty columns' : ''}.`,
     );
     return pick;
@@ -360,7 +362,7 @@ class Binder implements BindContext {
     const label = quantityLabel(q);
     const how =
       c.cand.source === 'option'
-        ? `${label} as given with --bind`
+        ? `${label} as given ${originPhrase(optionOrigin(this.options, c.cand.column))}`
         : c.cand.source === 'ucd'
           ? `${label} from its UCD \`${c.cand.ucd}\``
           : c.cand.guess.planet
@@ -382,6 +384,11 @@ class Binder implements BindContext {
     const more = looksStellar.length > 3 ? ` and ${looksStellar.length - 3} more` : '';
     this.notes.push(`${shown}${more} left unbound: planet columns are never stellar quantities.`);
   }
+}
+
+/** `with --bind`, or `in the binding file b.yaml, line 3`. */
+function originPhrase(origin: string): string {
+  return origin === '--bind' ? 'with --bind' : `in ${origin}`;
 }
 
 /**

@@ -42,9 +42,38 @@ export function parseCell(s: string): number {
   return special(s);
 }
 
+/** Runs of two or more dots (`..`, `...`, `.....`) or an ellipsis: a missing-value code, not a number. */
+const DOTS = /^\s*(?:\.{2,}|\u2026)\s*$/;
+/** A Fortran double-precision exponent: `1.0D+26`, `-3.2d-4`. */
+const FORTRAN = /^\s*[+-]?(?:\d+\.?\d*|\.\d+)[dD][+-]?\d+\s*$/;
+/** Thousands separators: groups of exactly three digits after a first group of 1-3 with no leading zero. */
+const THOUSANDS = /^\s*[+-]?[1-9]\d{0,2}(?:,\d{3})+(?:\.\d*)?(?:[eE][+-]?\d+)?\s*$/;
+/** A decimal comma: digits, one comma, digits, and not a thousands grouping (`1,23`, `0,5`). */
+const DECIMAL_COMMA = /^\s*[+-]?\d+,\d+\s*$/;
+
+/**
+ * The two forms of a cell Number() rejects that are still unambiguous numbers. Thousands
+ * separators are read only where nothing in the column batch uses a decimal comma (see readNumbers).
+ */
+function lenientValue(s: string): { value: number; form: 'thousands' | 'fortran' } | null {
+  if (FORTRAN.test(s)) return { value: Number(s.trim().replace(/[dD]/, 'e')), form: 'fortran' };
+  if (THOUSANDS.test(s)) return { value: Number(s.trim().replace(/,/g, '')), form: 'thousands' };
+  return null;
+}
+
 /**
  * Read a raw column into `out` as the numbers written. Cells that are neither numbers nor missing
- * markers become NaN and, when `problems` is given, one InputProblem each.
+ * markers take the slow path, once per cell, and each gives one InputProblem when `problems` is
+ * given:
+ * - runs of dots (`...`) are a missing-value code: NaN, kind `sentinel` (the sentinel-value rule
+ *   counts them per column);
+ * - Fortran exponents (`1.0D+26`) and thousands separators (`51,230`) are read, kind `lenient`
+ *   (one note per column from unparseable-value);
+ * - anything else is NaN, kind `unparseable`.
+ * A comma is ambiguous: `1,234` is 1234 with a thousands separator or 1.234 with a decimal comma.
+ * It is read as thousands only where no cell of the same column in the batch has a comma that
+ * cannot be one (`1,23`, `0,5`); such a column writes decimal commas, and all of its comma cells
+ * stay unparseable rather than being guessed.
  */
 export function readNumbers(col: RawColumn, column: string, out: Float64Array, problems: InputProblem[] | null): void {
   const n = out.length;
@@ -59,6 +88,9 @@ export function readNumbers(col: RawColumn, column: string, out: Float64Array, p
     return;
   }
   const cells = col.values;
+  // Thousands-separated cells wait until the column is known not to use decimal commas.
+  let thousands: number[] | null = null;
+  let decimalComma = false;
   for (let i = 0; i < n; i++) {
     const s = i < cells.length ? cells[i] : null;
     if (s === null) {
@@ -67,16 +99,40 @@ export function readNumbers(col: RawColumn, column: string, out: Float64Array, p
     }
     const x = parseCell(s);
     out[i] = x;
-    if (x !== x && problems !== null && !isMissingText(s)) {
-      problems.push({
-        index: i,
-        kind: 'unparseable',
-        column,
-        text: s,
-        message: `${column}: \`${s}\` is not a number`,
-      });
+    if (x === x || isMissingText(s)) continue;
+    if (DOTS.test(s)) {
+      problems?.push({ index: i, kind: 'sentinel', column, text: s, message: `${column}: \`${s.trim()}\` is a missing-value code, read as missing` });
+      continue;
     }
+    const lenient = lenientValue(s);
+    if (lenient && lenient.form === 'thousands') {
+      (thousands ??= []).push(i);
+      continue;
+    }
+    if (lenient) {
+      out[i] = lenient.value;
+      problems?.push({ index: i, kind: 'lenient', column, text: s, message: `${column}: \`${s.trim()}\` read as ${lenient.value} (Fortran D exponent)` });
+      continue;
+    }
+    if (DECIMAL_COMMA.test(s)) decimalComma = true;
+    problems?.push(unparseable(i, column, s));
   }
+  if (thousands === null) return;
+  for (const i of thousands) {
+    const s = cells[i]!;
+    if (decimalComma) {
+      problems?.push(unparseable(i, column, s, ' (the column writes decimal commas elsewhere, so the comma is ambiguous)'));
+      continue;
+    }
+    const v = Number(s.trim().replace(/,/g, ''));
+    out[i] = v;
+    problems?.push({ index: i, kind: 'lenient', column, text: s, message: `${column}: \`${s.trim()}\` read as ${v} (thousands separators)` });
+  }
+  // The deferred problems come last; toBatch sorts the batch's problems by row.
+}
+
+function unparseable(index: number, column: string, s: string, why = ''): InputProblem {
+  return { index, kind: 'unparseable', column, text: s, message: `${column}: \`${s}\` is not a number${why}` };
 }
 
 /** Text cells for id and stage: trimmed, with empty cells and missing markers as null. */

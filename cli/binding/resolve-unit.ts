@@ -5,7 +5,7 @@
  */
 import type { NumericQuantity } from '../../rules/engine/quantities.js';
 import type { BindContext, Candidate, Resolved } from './bind-context.js';
-import { optionUnit } from './bind-options.js';
+import { optionUnit, unitOrigin } from './bind-options.js';
 import { quantityUnit } from './convert.js';
 import { defaultUnit, finiteValues, inferLogNamed, inferUnit, type Inferred } from './infer-unit.js';
 import { DIMENSION_UNIT, QUANTITY_DIMENSION, isNoUnit } from './units.js';
@@ -60,7 +60,8 @@ function byName(q: NumericQuantity, unit: string, phrase: string): Resolved {
 
 /** A unit the user or the file declared. */
 function declared(ctx: BindContext, c: Candidate, q: NumericQuantity, text: string, source: 'option' | 'metadata', nameSaysLog: boolean): Resolved {
-  const qu = quantityUnit(q, text, c.column, source === 'option' ? 'from --unit' : "from the file's metadata");
+  const from = source === 'option' ? `from ${unitOrigin(ctx.options, c.column)}` : "from the file's metadata";
+  const qu = quantityUnit(q, text, c.column, from);
   let unit = qu.unit;
   let log = qu.log;
   if (source === 'metadata' && nameSaysLog && !qu.log && QUANTITY_DIMENSION[q] !== 'dex') {
@@ -70,7 +71,7 @@ function declared(ctx: BindContext, c: Candidate, q: NumericQuantity, text: stri
     ctx.notes.push(`\`${c.column}\`: the metadata says \`${text}\` but the name marks a log value; read as ${unit}.`);
   }
   const orig = text !== unit ? ` (\`${text}\`)` : '';
-  const phrase = source === 'option' ? `unit ${unit} from --unit` : `unit ${unit} from the file's metadata${orig}`;
+  const phrase = source === 'option' ? `unit ${unit} ${from}` : `unit ${unit} from the file's metadata${orig}`;
   return { unit, source, phrase, qu: { ...qu, log, unit } };
 }
 

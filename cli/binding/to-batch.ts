@@ -2,7 +2,7 @@
  * Raw batches to canonical engine batches, with the conversion plan worked out once per binding.
  */
 import { isNumericQuantity, type NumericQuantity, type TextQuantity } from '../../rules/engine/quantities.js';
-import type { Batch, InputProblem, QuantityColumn, TextColumn } from '../../rules/engine/types.js';
+import type { Batch, InputProblem, QuantityColumn, TextColumn, WrittenErrors } from '../../rules/engine/types.js';
 import type { RawBatch } from '../readers/types.js';
 import { readNumbers, readText } from './cells.js';
 import { convertErrorSide, convertValues, errorSpec, valueSpec, type ErrorSpec, type ValueSpec } from './convert.js';
@@ -81,11 +81,24 @@ export function toBatch(raw: RawBatch, binding: Binding, input: number): Batch {
     let logErrLo: Float64Array | null = null;
     let logErrHi: Float64Array | null = null;
     const errColumns: string[] = [];
+    let errRaw: WrittenErrors | undefined;
     for (const e of p.errors) {
       const ecol = raw.columns[e.binding.columnIndex];
       const a = new Float64Array(n);
       if (ecol) readNumbers(ecol, e.binding.column, a, problems);
       else a.fill(NaN);
+      // The cells as written, signs included, for the rules that judge the uncertainties themselves.
+      errRaw ??= { lo: null, hi: null, loColumn: null, hiColumn: null, symmetric: e.binding.role === 'sym', loStoredNegative: false };
+      const written = a.slice();
+      if (e.binding.role !== 'hi') {
+        errRaw.lo = written;
+        errRaw.loColumn = e.binding.column;
+        errRaw.loStoredNegative = e.binding.negativeStored;
+      }
+      if (e.binding.role !== 'lo') {
+        errRaw.hi = written;
+        errRaw.hiColumn = e.binding.column;
+      }
       absInPlace(a);
       errColumns.push(e.binding.column);
       if (e.binding.role === 'sym' || e.binding.role === 'lo') {
@@ -101,6 +114,7 @@ export function toBatch(raw: RawBatch, binding: Binding, input: number): Batch {
     }
 
     const qc: QuantityColumn = { column: p.binding.column, unit: p.binding.unit, value, raw: rawValues, errLo, errHi, errColumns };
+    if (errRaw) qc.errRaw = errRaw;
     if (log) {
       qc.log = log;
       qc.logErrLo = logErrLo;

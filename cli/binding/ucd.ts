@@ -36,6 +36,8 @@ export function ucdInfo(ucd: string | null): UcdInfo | null {
     .map((w) => w.trim().toLowerCase())
     .filter(Boolean);
   if (words.length === 0) return null;
+  // A bound of an interval (`phys.size.radius;stat.min`) is neither the value nor its uncertainty.
+  if (words.some((w) => w === 'stat.min' || w === 'stat.max')) return null;
   const error = words[0] === 'stat.error' || words[0] === 'stat.stdev' || words[0].startsWith('stat.error.');
   const primary = error ? words[1] : words[0];
   if (primary === undefined || !Object.hasOwn(UCD_WORDS, primary)) return null;

@@ -1,6 +1,7 @@
 import { SEVERITIES, severityRank, type Finding, type FindingSink, type Severity } from '../../rules/engine/types.js';
 import { selectRules } from '../../rules/engine/runner.js';
 import { ALL_RULES } from '../../rules/checks/index.js';
+import { readBindingFile, withCommandLine } from '../binding/binding-file.js';
 import { bindOptionsFrom, selectionFrom, type FailLevel, type SelectionFlags } from '../options.js';
 import { AcceptedSet, readAccepted } from '../reports/accepted.js';
 import { fingerprint, inputName } from '../reports/fingerprint.js';
@@ -21,8 +22,11 @@ export interface CheckFlags extends SelectionFlags {
   failOn: FailLevel;
   bind: string[];
   unit: string[];
+  binding?: string;
   format?: string;
   delimiter?: string;
+  hdu?: number;
+  table?: number;
   batchSize?: string;
   show: string;
   color: boolean;
@@ -57,7 +61,7 @@ class Dispatch implements FindingSink {
 export async function checkCommand(paths: string[], flags: CheckFlags): Promise<number> {
   const selection = selectionFrom(flags);
   const rules = selectRules(ALL_RULES, selection);
-  const bind = bindOptionsFrom(flags.bind, flags.unit);
+  const bind = withCommandLine(flags.binding ? readBindingFile(flags.binding) : null, bindOptionsFrom(flags.bind, flags.unit));
   const accepted = new AcceptedSet(flags.accepted ? readAccepted(flags.accepted) : null);
   const collector = new TerminalCollector(Math.max(0, Number(flags.show) || 0));
   const htmlRows = Math.max(1, Number(flags.htmlRows ?? 50) || 50);
@@ -100,6 +104,8 @@ export async function checkCommand(paths: string[], flags: CheckFlags): Promise<
       bind,
       format: flags.format,
       delimiter: flags.delimiter,
+      hdu: flags.hdu,
+      table: flags.table,
       batchSize: flags.batchSize ? Number(flags.batchSize) : undefined,
       sink: dispatch,
       progress,

@@ -4,6 +4,7 @@ import type { Batch, Finding, FindingSink, Rule } from '../../rules/engine/types
 import { bindColumns, toBatch } from '../binding/bind.js';
 import type { Binding, BindOptions } from '../binding/types.js';
 import { openCatalog } from '../readers/open.js';
+import { canSelectColumns } from '../readers/projection.js';
 import type { CatalogReader, RawBatch } from '../readers/types.js';
 import type { InputSummary } from '../reports/terminal.js';
 
@@ -14,6 +15,9 @@ export interface RunInputsOptions {
   bind: BindOptions;
   format?: string;
   delimiter?: string;
+  /** FITS: the HDU to read; VOTable: the TABLE (1-based). */
+  hdu?: number;
+  table?: number;
   batchSize?: number;
   sink: FindingSink;
   /** Called now and then with rows read so far, for a progress line. */
@@ -43,7 +47,14 @@ async function bindFromFirstBatch(reader: CatalogReader, opts: RunInputsOptions)
   const first = await it.next();
   const sample: RawBatch | null = first.done ? null : first.value;
   const binding = bindColumns(reader.columns, sample, opts.bind);
+  // Readers that decode column by column (Parquet, FITS) may now skip what no rule reads.
+  if (canSelectColumns(reader)) reader.selectColumns(boundColumns(binding));
   return { it, sample, binding };
+}
+
+/** Indices of every column the binding reads: values and their uncertainties. */
+export function boundColumns(binding: Binding): number[] {
+  return binding.columns.flatMap((b) => [b.columnIndex, ...b.errors.map((e) => e.columnIndex)]);
 }
 
 /** Reads each input in turn, binds its columns, and streams its batches through the rules. */
@@ -51,7 +62,13 @@ export async function runInputs(opts: RunInputsOptions): Promise<InputResult[]> 
   const results: InputResult[] = [];
   for (let index = 0; index < opts.paths.length; index++) {
     const path = opts.paths[index];
-    const reader = await openCatalog(path, { format: opts.format, delimiter: opts.delimiter, batchSize: opts.batchSize });
+    const reader = await openCatalog(path, {
+      format: opts.format,
+      delimiter: opts.delimiter,
+      batchSize: opts.batchSize,
+      hdu: opts.hdu,
+      table: opts.table,
+    });
     try {
       const { it, sample, binding } = await bindFromFirstBatch(reader, opts);
       const bound = new Map<Quantity, { column: string; unit: string }>();

@@ -31,6 +31,19 @@ export interface CsvOptions extends ReaderOptions {
   maxRecordChars?: number;
   /** Bytes per read from a file; tests make it tiny to put chunk boundaries everywhere. */
   readChunkBytes?: number;
+  /** Text to read instead of opening `path` (a decompressing stream, for example); closed with the reader. */
+  textStream?: Readable;
+  /**
+   * Called once with the comment lines above the header row (ECSV keeps its YAML header there)
+   * and the header line itself; may name the delimiter. Throwing aborts the open.
+   */
+  onPreamble?: (comments: readonly PreambleLine[], headerLine: string) => { delimiter?: string } | void;
+}
+
+export interface PreambleLine {
+  /** Physical line number. */
+  line: number;
+  text: string;
 }
 
 const DEFAULT_MAX_RECORD_CHARS = 8 * 1024 * 1024;
@@ -93,6 +106,9 @@ class CsvReader implements CatalogReader {
 
   private blankLines = 0;
   private firstBlankLine = 0;
+  /** Comment lines above the header, kept only for an onPreamble hook. */
+  private preamble: PreambleLine[] = [];
+  private preambleChars = 0;
 
   constructor(path: string, options: CsvOptions) {
     this.path = path;
@@ -102,7 +118,9 @@ class CsvReader implements CatalogReader {
     this.maxRecordChars = Math.max(1024, options.maxRecordChars ?? DEFAULT_MAX_RECORD_CHARS);
     // A '#' delimiter would make every row a comment; papaparse refuses the combination.
     this.comments = options.delimiter !== '#';
-    if (path === '-') {
+    if (options.textStream) {
+      this.stream = options.textStream;
+    } else if (path === '-') {
       process.stdin.setEncoding('utf8');
       this.stream = process.stdin;
     } else {
@@ -127,7 +145,9 @@ class CsvReader implements CatalogReader {
     }
     const firstNl = this.buf.indexOf('\n');
     const headerLine = firstNl === -1 ? this.buf : this.buf.slice(0, firstNl);
-    const delimiter = explicit ?? detectDelimiter(headerLine);
+    const hooked = this.options.onPreamble?.(this.preamble, headerLine);
+    this.preamble = [];
+    const delimiter = explicit ?? hooked?.delimiter ?? detectDelimiter(headerLine);
     this.format = delimiter === '\t' ? 'tsv' : 'csv';
     this.parser = new Papa.Parser({
       delimiter,
@@ -272,16 +292,30 @@ class CsvReader implements CatalogReader {
       const nl = buf.indexOf('\n', pos);
       if (nl === -1 && !this.eof) break;
       const end = nl === -1 ? buf.length : nl;
-      const skip = (this.comments && buf.charCodeAt(pos) === HASH) || buf.slice(pos, end).trim() === '';
+      const comment = this.comments && buf.charCodeAt(pos) === HASH;
+      const skip = comment || buf.slice(pos, end).trim() === '';
       if (!skip) {
         found = true;
         break;
       }
+      if (comment && this.options.onPreamble) this.keepPreamble(buf.slice(pos, end));
       pos = nl === -1 ? buf.length : nl + 1;
       if (nl !== -1) this.line++;
     }
     if (pos > 0) this.buf = buf.slice(pos);
     return found;
+  }
+
+  private keepPreamble(text: string): void {
+    this.preambleChars += text.length;
+    if (this.preambleChars > this.maxRecordChars) {
+      throw new InputError(
+        `${this.name}, line ${this.line}: the comment lines above the header run past ${this.maxRecordChars} characters`,
+        this.path,
+        `line ${this.line}`,
+      );
+    }
+    this.preamble.push({ line: this.line, text });
   }
 
   // ---- records -----------------------------------------------------------------------------

@@ -4,7 +4,7 @@
  * the linter busy for hours), and damaged or truncated gzip data becomes one readable InputError.
  */
 import { Transform, type Readable, type TransformCallback } from 'node:stream';
-import { createGunzip, gunzipSync } from 'node:zlib';
+import { createGunzip } from 'node:zlib';
 import { InputError } from './types.js';
 
 export const GZIP_MAGIC = [0x1f, 0x8b] as const;
@@ -28,11 +28,11 @@ export function inflateLimit(compressedBytes: number | null, override?: number):
   return Math.max(INFLATE_FLOOR_BYTES, MAX_INFLATE_RATIO * compressedBytes);
 }
 
-function gzipProblem(err: unknown, name: string, path: string, produced: number): InputError {
+function gzipProblem(err: unknown, path: string, produced: number): InputError {
   if (err instanceof InputError) return err;
   const reason = err instanceof Error ? err.message : String(err);
   return new InputError(
-    `${name}: the gzip data is damaged or truncated (${reason}) after ${produced} decompressed bytes`,
+    `the gzip data is damaged or truncated (${reason}) after ${produced} decompressed bytes`,
     path,
     `decompressed byte ${produced}`,
   );
@@ -42,7 +42,7 @@ function gzipProblem(err: unknown, name: string, path: string, produced: number)
  * Pipes `compressed` through gunzip and returns the decompressed byte stream. Errors of either
  * side arrive on the returned stream as InputErrors.
  */
-export function gunzipStream(compressed: Readable, name: string, path: string, limit: number): Readable {
+export function gunzipStream(compressed: Readable, path: string, limit: number): Readable {
   const gunzip = createGunzip();
   let produced = 0;
   const guard = new Transform({
@@ -51,7 +51,7 @@ export function gunzipStream(compressed: Readable, name: string, path: string, l
       if (produced > limit) {
         done(
           new InputError(
-            `${name}: decompresses to more than ${limit} bytes (over ${MAX_INFLATE_RATIO} times its compressed size); ` +
+            `it decompresses to more than ${limit} bytes (over ${MAX_INFLATE_RATIO} times its compressed size); ` +
               'this looks like a damaged file or a decompression bomb, so reading stopped',
             path,
             `decompressed byte ${limit}`,
@@ -63,7 +63,7 @@ export function gunzipStream(compressed: Readable, name: string, path: string, l
     },
   });
   const fail = (err: unknown) => {
-    if (!guard.destroyed) guard.destroy(gzipProblem(err, name, path, produced));
+    if (!guard.destroyed) guard.destroy(gzipProblem(err, path, produced));
   };
   compressed.on('error', fail);
   gunzip.on('error', fail);
@@ -73,16 +73,4 @@ export function gunzipStream(compressed: Readable, name: string, path: string, l
   });
   compressed.pipe(gunzip).pipe(guard);
   return guard;
-}
-
-/**
- * The first decompressed bytes of a gzip head, for sniffing the format inside. A head cut short
- * decompresses as far as it goes; anything that is not gzip at all gives an empty array.
- */
-export function gunzipHead(head: Uint8Array, bytes: number): Uint8Array {
-  try {
-    return gunzipSync(head, { finishFlush: 2 /* Z_SYNC_FLUSH: accept a truncated input */ }).subarray(0, bytes);
-  } catch {
-    return new Uint8Array(0);
-  }
 }

@@ -1,28 +1,45 @@
 /**
  * Picks the reader for an input: an explicit format wins, then the file's first bytes, then its
- * extension. New formats (FITS, VOTable, Parquet, ECSV) are one more entry in FORMATS.
+ * extension. A gzip file is looked into: its decompressed first bytes (or the extension under
+ * `.gz`) choose the format, and streaming readers read it through a decompressing stream.
  */
-import { open as openFile } from 'node:fs/promises';
 import { extname } from 'node:path';
 import { openArrow } from './arrow.js';
-import { describeIoError, displayName } from './common.js';
+import { displayName } from './common.js';
 import { openCsv } from './csv.js';
+import { ECSV_SIGNATURE, openEcsv } from './ecsv.js';
+import { openFits } from './fits.js';
+import { PARQUET_MAGIC, openParquet } from './parquet.js';
+import { openSource, type InputSource } from './source.js';
 import { InputError, type CatalogReader, type ReaderOptions } from './types.js';
+import { looksLikeVotable, openVotable } from './votable.js';
+
+export interface OpenOptions extends ReaderOptions {
+  /** A format name or alias from FORMATS; detected when absent. */
+  format?: string;
+  /** FITS: the HDU to read (0 = primary); by default the first binary table. */
+  hdu?: number;
+  /** VOTable: the TABLE to read, 1 = the first in the document (the default). */
+  table?: number;
+  /** gzip: most decompressed bytes accepted (default: 200 times the file size, at least 1 GiB). */
+  maxInflatedBytes?: number;
+  /** Bytes per read from disk; tests make it tiny to put chunk boundaries everywhere. */
+  readChunkBytes?: number;
+}
 
 export interface FormatEntry {
   /** The name `--format` takes and reports show. */
   format: string;
   /** Other names accepted for `--format`. */
   aliases: readonly string[];
-  /** Lower-case, with the dot. */
+  /** Lower-case, with the dot; `.gz` after any of them is understood. */
   extensions: readonly string[];
   /** True when the first bytes prove the format; absent for formats without a signature. */
   sniff?: (head: Uint8Array) => boolean;
-  open: (path: string, options: ReaderOptions) => Promise<CatalogReader>;
+  /** False for formats that need random access and so cannot be read through gunzip. */
+  streams: boolean;
+  open: (src: InputSource, options: OpenOptions) => Promise<CatalogReader>;
 }
-
-/** Bytes read for sniffing; enough for every signature in the table (FITS will want 80). */
-const SNIFF_BYTES = 80;
 
 function startsWith(head: Uint8Array, bytes: readonly number[]): boolean {
   if (head.length < bytes.length) return false;
@@ -30,35 +47,79 @@ function startsWith(head: Uint8Array, bytes: readonly number[]): boolean {
   return true;
 }
 
-const ARROW_FILE_MAGIC = [0x41, 0x52, 0x52, 0x4f, 0x57, 0x31]; // "ARROW1"
+const ascii = (s: string) => [...s].map((c) => c.charCodeAt(0));
+const ARROW_FILE_MAGIC = ascii('ARROW1');
 const ARROW_CONTINUATION = [0xff, 0xff, 0xff, 0xff];
-const GZIP_MAGIC = [0x1f, 0x8b];
+const FITS_SIGNATURE = ascii('SIMPLE  =');
+
+/** The text reader for CSV-like tables, fed by the source (so gzip works). */
+const csvFrom = (src: InputSource, options: OpenOptions, delimiter?: string) =>
+  openCsv(src.path, { ...options, delimiter: options.delimiter ?? delimiter, textStream: src.gzip ? src.text(options.readChunkBytes) : undefined });
 
 export const FORMATS: readonly FormatEntry[] = [
+  {
+    format: 'fits',
+    aliases: ['fit', 'fts', 'bintable'],
+    extensions: ['.fits', '.fit', '.fts'],
+    sniff: (head) => startsWith(head, FITS_SIGNATURE),
+    streams: true,
+    open: (src, o) => openFits(src, o),
+  },
+  {
+    format: 'votable',
+    aliases: ['vot', 'xml'],
+    extensions: ['.vot', '.votable', '.xml'],
+    sniff: looksLikeVotable,
+    streams: true,
+    open: (src, o) => openVotable(src, o),
+  },
+  {
+    format: 'parquet',
+    aliases: ['pq'],
+    extensions: ['.parquet', '.pq'],
+    sniff: (head) => startsWith(head, PARQUET_MAGIC),
+    streams: false,
+    open: (src, o) => openParquet(src, o),
+  },
   {
     format: 'arrow',
     aliases: ['arrows', 'feather', 'ipc'],
     extensions: ['.arrow', '.arrows', '.feather', '.ipc'],
     sniff: (head) => startsWith(head, ARROW_FILE_MAGIC) || startsWith(head, ARROW_CONTINUATION),
-    open: openArrow,
+    streams: false,
+    open: (src, o) => openArrow(src.path, o),
+  },
+  {
+    // Before csv: an ECSV file is also a valid CSV, but only its header says the units.
+    format: 'ecsv',
+    aliases: [],
+    extensions: ['.ecsv'],
+    sniff: (head) => startsWith(head, ECSV_SIGNATURE),
+    streams: true,
+    open: (src, o) => openEcsv(src, o),
   },
   {
     format: 'csv',
     aliases: [],
     extensions: ['.csv', '.txt'],
-    open: openCsv,
+    streams: true,
+    open: (src, o) => csvFrom(src, o),
   },
   {
     // A .tsv may hold commas inside names; detection could then pick the wrong delimiter.
     format: 'tsv',
     aliases: ['tab'],
     extensions: ['.tsv', '.tab'],
-    open: (path, options) => openCsv(path, { ...options, delimiter: options.delimiter ?? '\t' }),
+    streams: true,
+    open: (src, o) => csvFrom(src, o, '\t'),
   },
 ];
 
+/** Names `--format` accepts, for the CLI's choices. */
+export const FORMAT_NAMES: readonly string[] = FORMATS.map((f) => f.format);
+
 function knownFormats(): string {
-  return FORMATS.map((f) => f.format).join(', ');
+  return FORMAT_NAMES.join(', ');
 }
 
 export function findFormat(name: string): FormatEntry | undefined {
@@ -66,53 +127,59 @@ export function findFormat(name: string): FormatEntry | undefined {
   return FORMATS.find((f) => f.format === wanted || f.aliases.includes(wanted));
 }
 
-export async function openCatalog(
-  path: string,
-  options: ReaderOptions & { format?: string } = {},
-): Promise<CatalogReader> {
+/** The extension that names the format: `.csv` for `cat.csv.gz`. */
+function formatExtension(path: string, gzip: boolean): string {
+  const ext = extname(path).toLowerCase();
+  if (ext === '.gz' || ext === '.gzip' || (gzip && ext === '.tgz')) return extname(path.slice(0, -ext.length)).toLowerCase();
+  return ext;
+}
+
+export async function openCatalog(path: string, options: OpenOptions = {}): Promise<CatalogReader> {
   const { format, ...readerOptions } = options;
+  let entry: FormatEntry | undefined;
   if (format !== undefined && format !== '') {
-    const entry = findFormat(format);
+    entry = findFormat(format);
     if (!entry) {
       throw new InputError(`unknown format '${format}' for ${displayName(path)} (known: ${knownFormats()})`, path);
     }
-    if (path !== '-') await sniffHead(path); // a missing file reads the same for every format
-    return entry.open(path, readerOptions);
   }
-  if (path === '-') return openCsv(path, readerOptions);
+  if (path === '-') {
+    if (entry && entry.format !== 'csv' && entry.format !== 'tsv') {
+      throw new InputError(`standard input can be read only as CSV or TSV, not as ${entry.format}; give a file name instead`, path);
+    }
+    checkOptionsApply('csv', options, path);
+    return openCsv(path, { ...readerOptions, delimiter: options.delimiter ?? (entry?.format === 'tsv' ? '\t' : undefined) });
+  }
 
-  const head = await sniffHead(path);
-  for (const entry of FORMATS) {
-    if (entry.sniff?.(head)) return entry.open(path, readerOptions);
+  const src = await openSource(path, { maxInflatedBytes: options.maxInflatedBytes });
+  entry ??= FORMATS.find((f) => f.sniff?.(src.head));
+  if (!entry) {
+    const ext = formatExtension(path, src.gzip);
+    entry = FORMATS.find((f) => f.extensions.includes(ext));
+    if (!entry) {
+      throw new InputError(
+        `cannot tell the format of ${path} from its contents or its extension ${ext === '' ? '(none)' : `'${ext}'`}; ` +
+          `name one with --format (${knownFormats()})`,
+        path,
+      );
+    }
   }
-  if (startsWith(head, GZIP_MAGIC)) {
+  if (src.gzip && !entry.streams) {
     throw new InputError(
-      `${path} is gzip-compressed; decompress it first (for example: gunzip -c ${path} | starsieve check -)`,
+      `${path} is a gzip-compressed ${entry.format} file; ${entry.format} needs random access, so decompress it first (gunzip -k ${path})`,
       path,
     );
   }
-  const ext = extname(path).toLowerCase();
-  for (const entry of FORMATS) {
-    if (entry.extensions.includes(ext)) return entry.open(path, readerOptions);
-  }
-  throw new InputError(
-    `cannot tell the format of ${path} from its contents or its extension ${ext === '' ? '(none)' : `'${ext}'`}; ` +
-      `name one with --format (${knownFormats()})`,
-    path,
-  );
+  checkOptionsApply(entry.format, options, path);
+  return entry.open(src, readerOptions);
 }
 
-/** The first bytes of the file, and the place where a missing or unreadable file is reported. */
-async function sniffHead(path: string): Promise<Uint8Array> {
-  let handle;
-  try {
-    handle = await openFile(path, 'r');
-    const buf = Buffer.alloc(SNIFF_BYTES);
-    const { bytesRead } = await handle.read(buf, 0, SNIFF_BYTES, 0);
-    return buf.subarray(0, bytesRead);
-  } catch (err) {
-    throw new InputError(`cannot read ${path}: ${describeIoError(err)}`, path);
-  } finally {
-    await handle?.close().catch(() => undefined);
+/** --hdu and --table belong to one format each; on another they are a mistake worth saying. */
+function checkOptionsApply(format: string, options: OpenOptions, path: string): void {
+  if (options.hdu !== undefined && format !== 'fits') {
+    throw new InputError(`--hdu applies to FITS files, but ${displayName(path)} is read as ${format}`, path);
+  }
+  if (options.table !== undefined && format !== 'votable') {
+    throw new InputError(`--table applies to VOTable files, but ${displayName(path)} is read as ${format}`, path);
   }
 }

@@ -1,44 +1,30 @@
-import { columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
-import { markUnusable } from '../engine/usable.js';
-import type { Finding, Rule } from '../engine/types.js';
+import { fmt } from '../engine/findings.js';
+import type { Rule } from '../engine/types.js';
 import { StarClass, starClasses } from '../physics/classify.js';
-import { L_SUN_W } from '../physics/constants.js';
 import { relationAt, type RelationVerdictInput } from '../physics/relation-choice.js';
 import { logLuminosityFromRadiusTeff } from '../physics/stellar.js';
+import { Expectations, LUMINOSITY_READINGS, MIXUP_PARAMS, UnitMixupScreen, meanErr, type UnitMixupSpec } from './shared/unit-readings.js';
 
 const ID = 'luminosity-unit-mixup';
 const LN10 = Math.LN10;
-const LOG_LSUN_W = Math.log10(L_SUN_W);
-const LOG_LSUN_ERG = LOG_LSUN_W + 7;
 
-/** The readings a luminosity cell can have: its log10 L/L_sun is (log ? raw : log10 raw) + offset. */
-const READINGS = [
-  { unit: 'solLum', log: false, offset: 0 },
-  { unit: 'W', log: false, offset: -LOG_LSUN_W },
-  { unit: 'erg/s', log: false, offset: -LOG_LSUN_ERG },
-  { unit: 'log(solLum)', log: true, offset: 0 },
-  { unit: 'log(W)', log: true, offset: -LOG_LSUN_W },
-  { unit: 'log(erg/s)', log: true, offset: -LOG_LSUN_ERG },
-] as const;
+/** Bases of the expectation, for the message: Stefan-Boltzmann, the mass-luminosity relation. */
+const BASIS_SB = 1;
+const BASIS_ML = 2;
 
-/** Luminosities real stars have, in log L_sun: brown-dwarf boundary to beyond the brightest known. */
-const PLAUSIBLE_LOG_MIN = -6;
-const PLAUSIBLE_LOG_MAX = 7.5;
-/** Most rows kept for the per-row listing while deciding whether the whole column is affected. */
-const ROW_BUFFER_CAP = 20_000;
-/** Fewer judged rows than this never make a column-level verdict: a short table gets its rows listed. */
-const COLUMN_MIN_ROWS = 10;
-
-function readingLog(r: (typeof READINGS)[number], raw: number): number {
-  return r.log ? raw + r.offset : raw > 0 ? Math.log10(raw) + r.offset : NaN;
-}
-
-function meanErr(lo: Float64Array | null, hi: Float64Array | null, i: number): number {
-  const a = lo ? lo[i] : NaN;
-  const b = hi ? hi[i] : NaN;
-  if (Number.isFinite(a) && Number.isFinite(b)) return (a + b) / 2;
-  return Number.isFinite(a) ? a : Number.isFinite(b) ? b : 0;
-}
+const SPEC: UnitMixupSpec = {
+  id: ID,
+  quantity: 'luminosity',
+  readings: LUMINOSITY_READINGS,
+  canonicalUnit: 'solLum',
+  label: 'luminosity',
+  symbol: 'log L',
+  expectedKey: 'expectedLogL',
+  describe: (lg) => `${fmt(Math.pow(10, lg))} L_sun`,
+  // Luminosities real stars have, in log L_sun: brown-dwarf boundary to beyond the brightest known.
+  plausibleMin: -6,
+  plausibleMax: 7.5,
+};
 
 export const luminosityUnitMixup: Rule = {
   meta: {
@@ -49,10 +35,7 @@ export const luminosityUnitMixup: Rule = {
     needs: ['luminosity'],
     uses: ['radius', 'teff', 'mass', 'logg', 'stage', 'id'],
     params: [
-      { name: 'fireSigma', type: 'number', default: 5, min: 1, description: 'The declared reading must miss the star by more than this many sigma.' },
-      { name: 'acceptSigma', type: 'number', default: 3, min: 0.5, description: 'The suggested reading must fit within this many sigma.' },
-      { name: 'minGainDex', type: 'number', default: 0.5, min: 0, description: 'The suggested reading must fit better by at least this many dex.' },
-      { name: 'columnFraction', type: 'number', default: 0.5, min: 0, max: 1, description: 'Above this fraction of judged rows, one finding is made for the whole column.' },
+      ...MIXUP_PARAMS,
       { name: 'relationToleranceDex', type: 'number', default: 0.5, min: 0.05, description: 'Sigma of the mass-luminosity expectation, used where R and Teff are not both known.' },
     ],
     references: [
@@ -74,25 +57,14 @@ export const luminosityUnitMixup: Rule = {
     },
   },
   start(ctx) {
-    const fireSigma = ctx.params.fireSigma as number;
-    const acceptSigma = ctx.params.acceptSigma as number;
-    const minGain = ctx.params.minGainDex as number;
-    const columnFraction = ctx.params.columnFraction as number;
     const relTol = ctx.params.relationToleranceDex as number;
-    const declaredUnit = ctx.bound.get('luminosity')?.unit ?? 'solLum';
-    const declaredIndex = READINGS.findIndex((r) => r.unit === declaredUnit);
+    const screen = new UnitMixupScreen(SPEC, ctx.params, ctx.bound.get('luminosity')?.unit ?? 'solLum', true);
     const rel: RelationVerdictInput = { relation: '', logL: NaN, slope: NaN, scatter: NaN, brightAllowance: 0 };
-    const firedByUnit = new Array<number>(READINGS.length).fill(0);
-    let judged = 0;
-    let fired = 0;
-    let input = 0;
-    let column = '';
-    const buffer: Finding[] = [];
+    const e = new Expectations();
     return {
       check(batch, _out, stats) {
-        input = batch.input;
         const lum = batch.quantities.luminosity!;
-        column = lum.column;
+        screen.begin(batch, lum.column);
         const raw = lum.raw;
         const radius = batch.quantities.radius ?? null;
         const teff = batch.quantities.teff ?? null;
@@ -100,139 +72,43 @@ export const luminosityUnitMixup: Rule = {
         const classes = starClasses(batch);
         for (let i = 0; i < batch.length; i++) {
           const v = raw[i];
-          if (!Number.isFinite(v)) {
-            stats.skip('luminosity missing');
-            continue;
-          }
-          const declaredLog = declaredIndex >= 0 ? readingLog(READINGS[declaredIndex], v) : lum.log![i];
-          // What the rest of the row implies, and how sure that is.
-          let expected = NaN;
-          let sigma = NaN;
-          // 0: nothing to compare with, 1: Stefan-Boltzmann, 2: mass-luminosity relation. The
-          // sentence for the message is only written when the rule fires.
-          let basis = 0;
+          if (!screen.admit(batch, i, v, stats)) continue;
+          const declaredLog = screen.declaredLog(v, lum.log![i]);
+          // What the rest of the row implies, and how sure that is: 4 pi R^2 sigma Teff^4 where R
+          // and Teff are known, else the main-sequence mass-luminosity relation.
+          e.clear();
           const r = radius ? radius.value[i] : NaN;
           const t = teff ? teff.value[i] : NaN;
           if (r > 0 && t > 0) {
             const sr = meanErr(radius!.errLo, radius!.errHi, i) / (r * LN10);
             const st = meanErr(teff!.errLo, teff!.errHi, i) / (t * LN10);
-            expected = logLuminosityFromRadiusTeff(r, t);
-            sigma = Math.sqrt(0.15 * 0.15 + 4 * sr * sr + 16 * st * st);
-            basis = 1;
+            e.add(logLuminosityFromRadiusTeff(r, t), Math.sqrt(0.15 * 0.15 + 4 * sr * sr + 16 * st * st), BASIS_SB);
           } else {
             const m = mass ? mass.value[i] : NaN;
             if (m > 0) {
               const cls = classes[i];
               if ((cls === StarClass.MainSequence || cls === StarClass.Unknown) && relationAt('default', m, rel)) {
-                expected = rel.logL + rel.brightAllowance / 2;
-                sigma = relTol;
-                basis = 2;
+                e.add(rel.logL + rel.brightAllowance / 2, relTol, BASIS_ML);
               }
             }
           }
-          stats.checked++;
-          judged++;
-          let best = -1;
-          let bestDist = Infinity;
-          let declaredDist: number;
-          if (Number.isFinite(expected)) {
-            declaredDist = Number.isFinite(declaredLog) ? Math.abs(declaredLog - expected) : Infinity;
-            if (Number.isFinite(declaredLog) && declaredDist <= fireSigma * sigma) continue;
-            for (let k = 0; k < READINGS.length; k++) {
-              if (k === declaredIndex) continue;
-              const d = Math.abs(readingLog(READINGS[k], v) - expected);
-              if (d < bestDist) {
-                bestDist = d;
-                best = k;
-              }
-            }
-            if (best < 0 || bestDist > acceptSigma * sigma || declaredDist - bestDist < minGain) continue;
-          } else {
-            // Nothing else in the row to compare with: only a value no star can have is judged.
-            if (declaredLog >= PLAUSIBLE_LOG_MIN && declaredLog <= PLAUSIBLE_LOG_MAX) continue;
-            declaredDist = Infinity;
-            for (let k = 0; k < READINGS.length; k++) {
-              if (k === declaredIndex) continue;
-              const lg = readingLog(READINGS[k], v);
-              if (lg >= PLAUSIBLE_LOG_MIN && lg <= PLAUSIBLE_LOG_MAX) {
-                best = k;
-                bestDist = NaN;
-                break;
-              }
-            }
-            if (best < 0) continue;
-          }
-          fired++;
-          firedByUnit[best]++;
-          markUnusable(batch, 'luminosity', i);
-          if (buffer.length >= ROW_BUFFER_CAP) continue;
-          const suggestedLog = readingLog(READINGS[best], v);
-          const suggested = Math.pow(10, suggestedLog);
-          const basisText =
-            basis === 1
-              ? `4 pi R^2 sigma Teff^4 from R = ${fmt(r)} R_sun and Teff = ${fmt(t)} K`
-              : basis === 2
-                ? `the main-sequence mass-luminosity relation at M = ${fmt(mass!.value[i])} M_sun`
-                : 'the range of luminosities stars have (no R, Teff or main-sequence mass in the row)';
-          const asDeclared = Number.isFinite(declaredLog) ? `as ${declaredUnit} it is log L = ${fmt(declaredLog, 3)}` : `it cannot be a linear luminosity`;
-          buffer.push(
-            rowFinding(batch, i, {
-              rule: ID,
-              severity: 'error',
-              columns: [lum.column],
-              values: { [lum.column]: v, likelyUnit: READINGS[best].unit, expectedLogL: round6(expected) },
-              expected: Number.isFinite(expected)
-                ? { value: round6(Math.pow(10, expected)) ?? undefined, min: round6(Math.pow(10, expected - acceptSigma * sigma)) ?? undefined, max: round6(Math.pow(10, expected + acceptSigma * sigma)) ?? undefined, unit: 'solLum' }
-                : null,
-              message: `${lum.column} = ${fmt(v)} looks like ${READINGS[best].unit}, not ${declaredUnit}: ${asDeclared}, but ${basisText} gives log L = ${Number.isFinite(expected) ? fmt(expected, 3) : 'a stellar value'}; read as ${READINGS[best].unit} it is ${fmt(suggested)} L_sun${Number.isFinite(bestDist) ? ` (${fmt(bestDist, 2)} dex away)` : ''}`,
-              suggestion: {
-                column: lum.column,
-                value: round6(declaredUnit.startsWith('log') ? suggestedLog : suggested) ?? suggested,
-                unit: declaredUnit.startsWith('log') ? 'log(solLum)' : 'solLum',
-                text: `${fmt(suggested)} L_sun (the value read as ${READINGS[best].unit})`,
-              },
-            }),
-          );
+          const best = screen.judge(stats, v, declaredLog, e);
+          if (best < 0) continue;
+          // The sentence for the message is only written when the rule fires.
+          const basisText = (j: number) =>
+            j < 0
+              ? 'the range of luminosities stars have (no R, Teff or main-sequence mass in the row)'
+              : e.basis[j] === BASIS_SB
+                ? `4 pi R^2 sigma Teff^4 from R = ${fmt(r)} R_sun and Teff = ${fmt(t)} K`
+                : `the main-sequence mass-luminosity relation at M = ${fmt(mass!.value[i])} M_sun`;
+          screen.report(batch, i, v, declaredLog, best, e, basisText);
         }
       },
       finish(out) {
-        if (judged >= COLUMN_MIN_ROWS && fired / judged > columnFraction) {
-          let top = 0;
-          for (let k = 1; k < READINGS.length; k++) if (firedByUnit[k] > firedByUnit[top]) top = k;
-          out.push(
-            columnFinding({
-              input,
-              rule: ID,
-              severity: 'error',
-              columns: [column],
-              values: { rowsJudged: judged, rowsInOtherUnit: fired, likelyUnit: READINGS[top].unit, rowsLikelyUnit: firedByUnit[top] },
-              message: `column ${column} is declared ${declaredUnit}, but ${fired} of ${judged} judged rows fit another unit far better (${firedByUnit[top]} of them ${READINGS[top].unit}): the column as a whole is likely in ${READINGS[top].unit}`,
-              suggestion: { column, value: 1, unit: READINGS[top].unit, text: `declare the column's unit as ${READINGS[top].unit} (e.g. --unit ${column}=${READINGS[top].unit})` },
-            }),
-          );
-          return;
-        }
-        for (const f of buffer) out.push(f);
-        if (fired > buffer.length) {
-          out.push(
-            columnFinding({
-              input,
-              rule: ID,
-              severity: 'error',
-              columns: [column],
-              values: { rowsInOtherUnit: fired, rowsListed: buffer.length },
-              message: `${fired} rows of ${column} look like another unit; the first ${buffer.length} are listed, ${fired - buffer.length} more are not`,
-            }),
-          );
-        }
+        screen.finish(out);
       },
       summary() {
-        return {
-          declaredUnit,
-          rowsJudged: judged,
-          rowsInOtherUnit: fired,
-          byLikelyUnit: Object.fromEntries(READINGS.map((r, k) => [r.unit, firedByUnit[k]]).filter(([, n]) => (n as number) > 0)),
-        };
+        return screen.summary();
       },
     };
   },

@@ -30,6 +30,22 @@ export interface QuantityColumn {
   log?: Float64Array;
   logErrLo?: Float64Array | null;
   logErrHi?: Float64Array | null;
+  /** The uncertainties as written (signs kept, catalog units), for rules that judge the error columns themselves. */
+  errRaw?: WrittenErrors;
+}
+
+/**
+ * Uncertainty cells exactly as the catalog wrote them, before the binder took magnitudes and
+ * converted units: `lo` and `hi` are the same array for a symmetric error. `loStoredNegative` is the
+ * column's convention (NASA `err2`, PHL `_ERROR_MIN`), so a positive cell there is a wrong sign.
+ */
+export interface WrittenErrors {
+  lo: Float64Array | null;
+  hi: Float64Array | null;
+  loColumn: string | null;
+  hiColumn: string | null;
+  symmetric: boolean;
+  loStoredNegative: boolean;
 }
 
 export interface TextColumn {
@@ -41,7 +57,8 @@ export interface TextColumn {
 export interface InputProblem {
   /** Index within the batch. */
   index: number;
-  kind: 'unparseable' | 'malformed';
+  /** `sentinel`: a missing-value code written as text (`...`); `lenient`: read as a number, with a note (`51,230`, `1.0D+26`). */
+  kind: 'unparseable' | 'malformed' | 'sentinel' | 'lenient';
   column: string | null;
   text: string;
   message: string;

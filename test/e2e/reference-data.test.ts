@@ -46,9 +46,17 @@ describe.skipIf(!hasShared)('real catalogs (../shared/reference-data)', () => {
     expect(report.inputs[0].notes.join(' ')).toMatch(/st_lum.*mixed/);
   });
 
-  it('white dwarfs, red supergiants and archive tables: no error-level findings', () => {
+  it('MWDD white dwarfs: no main-sequence findings; only the three impossible rows its PROVENANCE names are errors', () => {
+    // PROVENANCE.md: logg 10.627 (Gaia DR2 5064259336725948672), logg 10.000 (2MASS
+    // J12101023+3347239) and Dpc = 0.0 (Ton S 56).
+    const { report } = checkWithReport([ref('mwdd-white-dwarfs/MWDD-export.csv'), '--fail-on', 'never']);
+    accountingHolds(report);
+    expect(report.findings.filter((f) => f.rule === 'mass-luminosity-outlier')).toEqual([]);
+    expect(errors(report).map((f) => f.id).sort()).toEqual(['2MASS J12101023+3347239', 'Gaia DR2 5064259336725948672', 'Ton S 56']);
+  });
+
+  it('red supergiants and archive tables: no error-level findings', () => {
     for (const f of [
-      'mwdd-white-dwarfs/MWDD-export.csv',
       'massive-luminous-stars/RSG_catalog_4_11_24.csv',
       'nasa-exoplanet-archive/PSCompPars_2024-10-15.csv',
       'nasa-exoplanet-archive/legacy_hz_confirmed_planet_hosts_2019.csv',

@@ -93,14 +93,14 @@ describe('toBatch: cells', () => {
     expect(b.problems).toEqual([]);
   });
 
-  it('anything else is NaN plus one unparseable problem naming the column and the text', () => {
+  it('anything else is NaN plus one problem naming the column and the text (runs of dots are sentinels)', () => {
     const b = batchOf({ Teff_K: ['5772', 'abc', '1,5', '0x10', '...'] });
     expect(arr(b.quantities.teff!.value).slice(1).every((x) => Number.isNaN(x))).toBe(true);
     expect(b.problems.map((p) => [p.index, p.kind, p.column, p.text])).toEqual([
       [1, 'unparseable', 'Teff_K', 'abc'],
       [2, 'unparseable', 'Teff_K', '1,5'],
       [3, 'unparseable', 'Teff_K', '0x10'],
-      [4, 'unparseable', 'Teff_K', '...'],
+      [4, 'sentinel', 'Teff_K', '...'],
     ]);
     expect(b.problems[1].message).toBe('Teff_K: `1,5` is not a number');
   });

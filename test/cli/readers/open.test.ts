@@ -3,6 +3,7 @@ import { gzipSync } from 'node:zlib';
 import { afterAll, describe, expect, it } from 'vitest';
 import { FORMATS, openCatalog } from '../../../cli/readers/open.js';
 import { InputError } from '../../../cli/readers/types.js';
+import { ecsv, fitsTableFile, parquet, votable, type TableColumn } from '../../helpers/table-writers.js';
 import { collect, failure, TempDir } from './helpers.js';
 
 const tmp = new TempDir();
@@ -18,6 +19,21 @@ describe('openCatalog', () => {
       const reader = await openCatalog(p, {});
       expect(reader.format).toBe('arrow');
       expect((await collect(reader)).rows).toEqual([[1], [2]]);
+    }
+  });
+
+  it('sniffs FITS, VOTable, Parquet and ECSV from their first bytes, whatever the extension', async () => {
+    const cols: TableColumn[] = [{ name: 'v', type: 'double', values: [1, 2] }];
+    const files: [string, string | Uint8Array][] = [
+      ['fits', fitsTableFile(cols)],
+      ['votable', votable([{ columns: cols }]).join('')],
+      ['parquet', await parquet(cols)],
+      ['ecsv', ecsv(cols).join('')],
+    ];
+    for (const [format, bytes] of files) {
+      const reader = await openCatalog(tmp.write(`${format}.dat`, bytes), {});
+      expect(reader.format).toBe(format);
+      expect((await collect(reader)).rows.map((r) => Number(r[0]))).toEqual([1, 2]);
     }
   });
 
@@ -48,12 +64,15 @@ describe('openCatalog', () => {
   it('gives InputErrors for an unknown format, a missing file, a directory and an unknown extension', async () => {
     // Thunks, so each open starts only when awaited: a rejection created early would go unhandled.
     const cases: [() => Promise<unknown>, RegExp][] = [
-      [() => openCatalog(tmp.write('u.csv', 'a\n'), { format: 'fits-ish' }), /^unknown format 'fits-ish' .*known: arrow, csv, tsv/],
+      [() => openCatalog(tmp.write('u.csv', 'a\n'), { format: 'fits-ish' }), /^unknown format 'fits-ish' .*known: fits, votable, parquet, arrow, ecsv, csv, tsv/],
       [() => openCatalog(tmp.dir + '/missing.csv', {}), /^cannot read .*missing\.csv: no such file or directory$/],
       [() => openCatalog(tmp.dir + '/missing.csv', { format: 'csv' }), /^cannot read .*missing\.csv: /],
       [() => openCatalog(tmp.dir, {}), /^cannot read .*: it is a directory$/],
       [() => openCatalog(tmp.write('cat.dat', 'a,b\n'), {}), /cannot tell the format .*'\.dat'.*--format/],
-      [() => openCatalog(tmp.write('cat.csv.gz', gzipSync('a,b\n1,2\n')), {}), /gzip-compressed/],
+      [() => openCatalog(tmp.write('cat.arrow.gz', gzipSync(tableToIPC(arrowTable, 'stream'))), {}), /gzip-compressed arrow file; arrow needs random access/],
+      [() => openCatalog(tmp.write('h.csv', 'a\n1\n'), { hdu: 1 }), /--hdu applies to FITS files, but .* is read as csv/],
+      [() => openCatalog(tmp.write('t.csv', 'a\n1\n'), { table: 2 }), /--table applies to VOTable files/],
+      [() => openCatalog('-', { format: 'fits' }), /standard input can be read only as CSV or TSV/],
     ];
     for (const [open, message] of cases) {
       const err = await failure(open());

@@ -1,0 +1,105 @@
+import { rowFinding } from '../engine/findings.js';
+import type { Rule } from '../engine/types.js';
+import { FingerprintSet, RepeatLog, SET_FULL, idColumnOf } from './shared/fingerprints.js';
+
+const ID = 'duplicate-id';
+
+/**
+ * Identifiers that occur on more than one row. Ids are compared as text (trimmed, runs of white
+ * space as one space), never as numbers: a 19-digit Gaia source_id has more digits than a double
+ * holds, and parsed as one, distinct stars collapse onto one id.
+ */
+export const duplicateId: Rule = {
+  meta: {
+    id: ID,
+    title: 'Identifier on more than one row',
+    severity: 'warning',
+    stage: 'judge',
+    needs: [],
+    uses: ['id'],
+    params: [
+      {
+        name: 'listFraction',
+        type: 'number',
+        default: 0.01,
+        min: 0,
+        max: 1,
+        description: 'Repeated rows are listed one by one while at most this fraction of rows (or at most 10 rows) repeat an id; above it, one note says the table has several rows per star.',
+      },
+      { name: 'maxIds', type: 'number', default: 10_000_000, min: 1000, description: 'Distinct ids tracked per input (about 40 bytes each); later new ids are counted, not tracked.' },
+    ],
+    references: [
+      { cite: 'IEEE 754 binary64: integers above 2^53 = 9.0e15 are not all representable (Gaia DR3 source_id has 19 digits)' },
+      { cite: 'CARMENES PROVENANCE (../shared/reference-data): 33 false duplicates among GaiaDR3_id read as doubles, one real one read as text' },
+    ],
+    doc: {
+      catches:
+        'Rows whose identifier was already seen in the same input. Where repeats are rare (at most 10 rows, or at most listFraction of the rows) each repeated row is a warning naming the row where the id first appeared; where they are common, as in a table with one row per planet, one note gives the counts. Always one note per input with the counts when any id repeats.',
+      why:
+        'A catalog of stars with one star on two rows double-counts it, and two stars sharing an id (a mistyped name, a component letter dropped) are mixed up by everything that joins on it. Tables with one row per planet or per measurement repeat their host by design; for those, conflicting-duplicate checks that the repeated host carries the same values.',
+      fires:
+        'CARMENES with GaiaDR3_id bound as id: LP 377-78 B and GJ 1166 B share 3954959680345736192 (warning on the second row, naming the first).',
+      silent:
+        'The same catalog read with the 19-digit ids as doubles would report 33 repeats; as text there is one. A PHL or NASA table with 1313 rows repeating their host: one note, no row findings.',
+      cautions:
+        'Ids are compared exactly (letter case kept): `GJ 1` and `Gl 1` are different ids, so cross-identifications are not found. Memory grows with the number of distinct ids (about 40 bytes each) up to maxIds; each input is judged on its own, so a star repeated across shards is not found.',
+    },
+  },
+  start(ctx) {
+    const ids = new FingerprintSet(ctx.params.maxIds as number);
+    const log = new RepeatLog(1000, ctx.params.listFraction as number);
+    let input = 0;
+    let column = '';
+    return {
+      check(batch, _out, stats) {
+        input = batch.input;
+        const idCol = idColumnOf(batch, stats);
+        if (!idCol) return;
+        column = idCol.column;
+        const values = idCol.values;
+        for (let i = 0; i < batch.length; i++) {
+          const id = values[i];
+          if (id === null) {
+            stats.skip('id missing');
+            continue;
+          }
+          stats.checked++;
+          log.rows++;
+          const row = batch.firstRow + i;
+          const e = ids.addText(id, row);
+          if (e === SET_FULL) {
+            log.untracked++;
+            continue;
+          }
+          if (ids.added) continue;
+          const first = ids.firstRow[e];
+          const n = ids.count[e];
+          log.repeat(n, id, () =>
+            rowFinding(batch, i, {
+              rule: ID,
+              severity: 'warning',
+              columns: [column],
+              values: { [column]: id, firstRow: first, rowsSoFar: n },
+              message: `${column} \`${id}\` is already on row ${first}${n > 2 ? ` (${n} rows so far)` : ''}: the same star twice, or two stars under one id`,
+            }),
+          );
+        }
+      },
+      finish(out) {
+        const listed = log.flush(out);
+        for (const f of log.notes(ID, input, column, (l) =>
+          `${l.repeats} of ${l.rows} rows ${l.repeats === 1 ? 'repeats' : 'repeat'} an id seen on an earlier row (${l.keysRepeated} ${l.keysRepeated === 1 ? 'id is' : 'ids are'} on two or more rows, at most ${l.maxCount} for \`${l.maxKey}\`)${
+            listed
+              ? '; each repeated row is listed'
+              : ': the table holds several rows per star (one per planet or component?), so the rows are not listed one by one; conflicting-duplicate reports ids whose values disagree'
+          }`,
+          ids.maxSize,
+        ))
+          out.push(f);
+      },
+      summary() {
+        return { distinctIds: ids.size, rowsRepeatingAnId: log.repeats, idsOnSeveralRows: log.keysRepeated, listed: log.listed() };
+      },
+    };
+  },
+};
