@@ -134,7 +134,7 @@ export const massLuminosityOutlier: Rule = {
           // With [Fe/H] bound, a star is flagged only if the ZAMS at its own metallicity does not
           // explain it either; the smaller deviation is the one reported.
           const fehI = feh ? feh[i] : NaN;
-          if (z !== 0 && Number.isFinite(fehI) && metallicityZamsAt(mi, fehI, zrel)) {
+          if (Math.abs(z) > threshold && Number.isFinite(fehI) && metallicityZamsAt(mi, fehI, zrel)) {
             const zz = zScore(zrel, li, i);
             if (Math.sign(zz) !== Math.sign(z) || Math.abs(zz) <= threshold) z = 0;
             else if (Math.abs(zz) < Math.abs(z)) {
