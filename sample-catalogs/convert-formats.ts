@@ -29,6 +29,10 @@ const DEMO_META: Readonly<Record<string, { unit?: string; ucd: string; descripti
   logg: { unit: 'log(cm.s**-2)', ucd: 'phys.gravity', description: 'Surface gravity, log10(g / cm s^-2)' },
   e_logg: { unit: 'dex', ucd: 'stat.error;phys.gravity', description: '1-sigma error of logg' },
   feh: { unit: 'dex', ucd: 'phys.abund.Fe', description: 'Iron abundance [Fe/H]' },
+  parallax_mas: { unit: 'mas', ucd: 'pos.parallax', description: 'Parallax' },
+  e_parallax_mas: { unit: 'mas', ucd: 'stat.error;pos.parallax', description: '1-sigma error of parallax' },
+  dist_pc: { unit: 'pc', ucd: 'pos.distance', description: 'Distance' },
+  mbol: { unit: 'mag', ucd: 'phys.magAbs.bol', description: 'Absolute bolometric magnitude' },
   stage: { ucd: 'src.class.luminosity', description: 'MS (main sequence), giant or WD (white dwarf)' },
 };
 

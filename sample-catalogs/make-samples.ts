@@ -24,10 +24,16 @@ import {
   vectorFromArray,
   type Data,
 } from 'apache-arrow';
-import { L_SUN_W } from '../rules/physics/constants.js';
+import { L_SUN_W, M_SUN_KG, R_SUN_M } from '../rules/physics/constants.js';
 import { eddingtonLuminosity } from '../rules/physics/eddington.js';
 import { EKER_2018 } from '../rules/physics/mass-luminosity.js';
-import { loggFromMassRadius, luminosityFromRadiusTeff, teffFromLuminosityRadius } from '../rules/physics/stellar.js';
+import {
+  logLuminosityFromRadiusTeff,
+  loggFromMassRadius,
+  luminosityFromRadiusTeff,
+  mbolFromLuminosity,
+  teffFromLuminosityRadius,
+} from '../rules/physics/stellar.js';
 import { toutZamsLuminosity, toutZamsRadius } from '../rules/physics/zams.js';
 
 export const SURVEY = 'Thistlewood Stellar Census';
@@ -50,11 +56,31 @@ export const COLUMNS = [
   'logg',
   'e_logg',
   'feh',
+  'parallax_mas',
+  'e_parallax_mas',
+  'dist_pc',
+  'mbol',
   'stage',
 ] as const;
 /** The numeric columns, in file order; index into a row's value array. */
-export const NUMERIC = COLUMNS.slice(1, 12) as readonly string[];
-const C = { mass: 0, eMass: 1, lum: 2, eLum: 3, radius: 4, eRadius: 5, teff: 6, eTeff: 7, logg: 8, eLogg: 9, feh: 10 } as const;
+export const NUMERIC = COLUMNS.slice(1, COLUMNS.length - 1) as readonly string[];
+const C = {
+  mass: 0,
+  eMass: 1,
+  lum: 2,
+  eLum: 3,
+  radius: 4,
+  eRadius: 5,
+  teff: 6,
+  eTeff: 7,
+  logg: 8,
+  eLogg: 9,
+  feh: 10,
+  plx: 11,
+  ePlx: 12,
+  dist: 13,
+  mbol: 14,
+} as const;
 
 // ---------------------------------------------------------------------------------------------
 // Random numbers. Our own generator so the output does not depend on the runtime's Math.random.
@@ -133,9 +159,19 @@ export function sig(x: number, digits: number): number {
 }
 const val = (x: number) => sig(x, 5);
 const err = (x: number) => sig(x, 2);
+/** Magnitudes to the millimag, as catalogs print them; +0 folds -0 away. */
+const mag = (x: number) => Number(x.toFixed(3)) + 0;
 /** Shortest text that reads back as exactly this double; NaN is an empty cell. */
 export function cell(v: number): string {
   return Number.isNaN(v) ? '' : String(v);
+}
+
+/** One CSV record: the id, the numeric cells (or the text planted in one), the stage; a ragged row is cut short. */
+function csvLine(id: string, s: Star): string {
+  const fields = [id];
+  for (let c = 0; c < s.v.length; c++) fields.push(s.csvText?.[c] ?? cell(s.v[c]));
+  fields.push(s.stage);
+  return (s.csvDropped ? fields.slice(0, fields.length - s.csvDropped) : fields).join(',');
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -151,8 +187,14 @@ interface Star {
   relMass: number;
   relLum: number;
   teffDraw: number;
-  /** Values as written (rounded). */
+  /** Values as written (rounded). NaN is an empty cell (in the Arrow file, a null). */
   v: Float64Array;
+  /** A planted copy of an earlier row of the block carries that row's id (its index in the block). */
+  idIndex?: number;
+  /** Text-level slips only the CSV holds: cells written as text (by numeric column) ... */
+  csvText?: Record<number, string>;
+  /** ... and fields missing at the end of the record (a ragged row). */
+  csvDropped?: number;
 }
 
 /** Composition of one full block; smaller blocks are scaled from it. */
@@ -180,7 +222,21 @@ function fill(v: Float64Array, m: number, l: number, r: number, t: number, g: nu
   v[C.logg] = val(g);
   v[C.eLogg] = err(s.logg);
   v[C.feh] = Number.isNaN(feh) ? NaN : Number(feh.toFixed(2)) + 0;
+  v[C.mbol] = mag(mbolFromLuminosity(v[C.lum]));
   return v;
+}
+
+/**
+ * Parallax, its error and the distance 1000 / parallax, from their own stream so the stars
+ * themselves do not depend on these columns. Distances are log-uniform in 5-2000 pc and parallax
+ * errors 1-5 %, so every parallax is measured at 20 sigma or better and 1/parallax is a fair distance.
+ */
+function astrometry(v: Float64Array, rng: Rng): void {
+  const d = rng.logUniform(5, 2000);
+  const rel = rng.uniform(0.01, 0.05);
+  v[C.plx] = val(1000 / d);
+  v[C.ePlx] = err(rel * v[C.plx]);
+  v[C.dist] = val(1000 / v[C.plx]);
 }
 
 interface ErrDraws {
@@ -298,12 +354,16 @@ function composition(n: number): Record<Kind, number> {
   return { ms: n - giantN - wdN - vmsN, vms: vmsN, giant: giantN, wd: wdN };
 }
 
-function makeBlock(rng: Rng, n: number): Star[] {
+function makeBlock(rng: Rng, astroRng: Rng, n: number): Star[] {
   const comp = composition(n);
   const kinds: Kind[] = [];
   for (const k of ['ms', 'vms', 'giant', 'wd'] as const) for (let i = 0; i < comp[k]; i++) kinds.push(k);
   rng.shuffle(kinds);
-  return kinds.map((k) => (k === 'ms' || k === 'vms' ? mainSequence(rng, k) : k === 'giant' ? giant(rng) : whiteDwarf(rng)));
+  return kinds.map((k) => {
+    const s = k === 'ms' || k === 'vms' ? mainSequence(rng, k) : k === 'giant' ? giant(rng) : whiteDwarf(rng);
+    astrometry(s.v, astroRng);
+    return s;
+  });
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -317,17 +377,45 @@ export type PlantKind =
   | 'eddington-warning'
   | 'ml-faint'
   | 'ml-bright'
-  | 'missing';
+  | 'missing'
+  | 'lum-times-ten'
+  | 'mass-in-kg'
+  | 'radius-in-km'
+  | 'log-teff'
+  | 'logg-si'
+  | 'mass-radius-swap'
+  | 'teff-off'
+  | 'logg-off'
+  | 'mbol-sign'
+  | 'mbol-one-mag'
+  | 'dist-in-kpc'
+  | 'parallax-in-arcsec'
+  | 'sentinel'
+  | 'negative-error'
+  | 'brown-dwarf-mass'
+  | 'zero-distance'
+  | 'same-id'
+  | 'same-row'
+  | 'conflicting-mass'
+  | 'text-in-number'
+  | 'ragged-row';
 
 export interface Expectation {
   rule: string;
   severity: 'error' | 'warning' | 'note';
 }
 
+/** A finding for a whole column (or input) that the planted cells must give, such as a sentinel note. */
+export interface ColumnExpectation extends Expectation {
+  /** The column it names; absent for a note about the whole input. */
+  column?: string;
+}
+
+/** A cell before and after planting; text for `star_id`, `stage` and text written in a numeric column. */
 export interface CellChange {
   column: string;
-  original: number | null;
-  planted: number | null;
+  original: number | string | null;
+  planted: number | string | null;
 }
 
 export interface PlantedEntry extends CellChange {
@@ -336,8 +424,21 @@ export interface PlantedEntry extends CellChange {
   kind: PlantKind;
   expect: Expectation[];
   alsoAllowed: string[];
+  /** Column-scope findings this planted row must give (sentinel and duplicate counts). */
+  expectColumn?: ColumnExpectation[];
   /** Cells that moved with the planted one (its error, or Teff kept on Stefan-Boltzmann). */
   alsoChanged?: CellChange[];
+  /**
+   * The duplicate kinds: the row was replaced by a copy of the earlier row `row`, id included;
+   * `differs` lists the cells where the copy differs from that row (`original` is that row's value).
+   */
+  copyOf?: { row: number; differs: CellChange[] };
+  /**
+   * A text-level slip (text in a numeric cell, a ragged record) that only the CSV can hold. The
+   * Arrow file holds what the CSV reader makes of the record (nulls), so there `expect` is not
+   * found and the row has no findings at all.
+   */
+  csvOnly?: true;
   detail: string;
 }
 
@@ -351,7 +452,31 @@ export const PLANT_COUNTS: readonly [PlantKind, number][] = [
   ['watts', 8],
   ['erg', 6],
   ['missing', 20],
+  ['conflicting-mass', 2],
+  ['same-row', 2],
+  ['same-id', 2],
+  ['mass-radius-swap', 3],
+  ['brown-dwarf-mass', 2],
+  ['lum-times-ten', 3],
+  ['mass-in-kg', 3],
+  ['radius-in-km', 3],
+  ['log-teff', 3],
+  ['logg-si', 3],
+  ['teff-off', 4],
+  ['logg-off', 4],
+  ['mbol-sign', 3],
+  ['mbol-one-mag', 3],
+  ['dist-in-kpc', 3],
+  ['parallax-in-arcsec', 2],
+  ['zero-distance', 2],
+  ['sentinel', 3],
+  ['negative-error', 3],
+  ['text-in-number', 3],
+  ['ragged-row', 2],
 ];
+
+/** Kinds whose slip only a text format can hold (see `csvOnly`). */
+export const CSV_ONLY_KINDS: readonly PlantKind[] = ['text-in-number', 'ragged-row'];
 
 const UNIT_MIXUP: Expectation[] = [{ rule: 'luminosity-unit-mixup', severity: 'error' }];
 /**
@@ -363,17 +488,19 @@ const WRONG_MASS_ALSO = ['mass-luminosity-outlier', 'surface-gravity-mismatch', 
 const LOG_LSUN_W = Math.log10(L_SUN_W);
 const LOG_LSUN_ERG = LOG_LSUN_W + 7;
 
+type Entry = Omit<PlantedEntry, 'row' | 'id' | 'copyOf'> & { copyOf?: { differs: CellChange[] } };
+
 interface Planted {
   index: number;
-  entry: Omit<PlantedEntry, 'row' | 'id'>;
+  /** For the duplicate kinds: the index of the earlier row that was copied. */
+  source: number;
+  entry: Entry;
 }
 
-function change(column: number, original: number, planted: number): CellChange {
-  return {
-    column: NUMERIC[column],
-    original: Number.isNaN(original) ? null : original,
-    planted: Number.isNaN(planted) ? null : planted,
-  };
+const cellValue = (x: number) => (Number.isNaN(x) ? null : x);
+
+function change(column: number, original: number, planted: number | string): CellChange {
+  return { column: NUMERIC[column], original: cellValue(original), planted: typeof planted === 'string' ? planted : cellValue(planted) };
 }
 
 /** The luminosity a cell would mean read in each wrong unit, in log L_sun. */
@@ -386,14 +513,22 @@ function distanceToInteger(x: number): number {
   return Math.abs(x - Math.round(x));
 }
 
-type Attempt = (s: Star, rng: Rng) => Omit<PlantedEntry, 'row' | 'id'> | null;
+/** Where an attempt stands in its block; the duplicate kinds copy an earlier row and name it in `source`. */
+interface BlockPick {
+  stars: Star[];
+  index: number;
+  taken: Uint8Array;
+  source: number;
+}
+
+type Attempt = (s: Star, rng: Rng, block: BlockPick) => Entry | null;
 
 function unitSlip(kind: 'watts' | 'erg', factor: number, label: string): Attempt {
   return (s) => {
     const v = s.v;
     const l = val(v[C.lum] * factor);
     const e = err(v[C.eLum] * factor);
-    const out: Omit<PlantedEntry, 'row' | 'id'> = {
+    const out: Entry = {
       kind,
       ...change(C.lum, v[C.lum], l),
       expect: UNIT_MIXUP,
@@ -416,7 +551,7 @@ const logInLinear: Attempt = (s) => {
   // A ratio close to a power of ten would look like a decimal slip instead.
   if (x > 0 && distanceToInteger(Math.log10(v[C.lum] / x)) < 0.15) return null;
   const e = err(s.relLum / Math.LN10);
-  const out: Omit<PlantedEntry, 'row' | 'id'> = {
+  const out: Entry = {
     kind: 'log-in-linear',
     ...change(C.lum, v[C.lum], x),
     expect: UNIT_MIXUP,
@@ -470,7 +605,7 @@ function wrongMass(kind: 'super-eddington' | 'eddington-warning'): Attempt {
         if (!(low.max < 0.9 * LEDD_X0 * ml)) return null;
       }
     }
-    const out: Omit<PlantedEntry, 'row' | 'id'> = {
+    const out: Entry = {
       kind,
       ...change(C.mass, m, ml),
       expect: [{ rule: 'eddington-limit', severity: kind === 'super-eddington' ? 'error' : 'warning' }],
@@ -496,26 +631,31 @@ function offRelation(kind: 'ml-faint' | 'ml-bright'): Attempt {
     const el = err(s.relLum * l);
     const t = val(teffFromLuminosityRadius(l, v[C.radius]));
     const et = err(teffError(t, s.teffDraw));
+    const mb = mag(mbolFromLuminosity(l));
     if (!(t >= 2800 && t <= 45_000)) return null;
     const resid = Math.log10(l) - rel;
     if (!(Math.abs(resid) >= 1.1 && Math.abs(resid) <= 1.55)) return null;
     // No wrong unit may fit the mass better than the declared one does.
     for (const r of otherReadings(l)) if (Math.abs(r - rel) < Math.abs(resid) + 0.5) return null;
     if (kind === 'ml-bright' && !(l + 3 * el < 0.5 * LEDD_X07 * (v[C.mass] - 3 * v[C.eMass]))) return null;
-    const out: Omit<PlantedEntry, 'row' | 'id'> = {
+    const out: Entry = {
       kind,
       ...change(C.lum, v[C.lum], l),
       expect: [{ rule: 'mass-luminosity-outlier', severity: 'warning' }],
       alsoAllowed: [],
-      alsoChanged: [change(C.eLum, v[C.eLum], el), change(C.teff, v[C.teff], t), change(C.eTeff, v[C.eTeff], et)].filter(
-        (c) => c.original !== c.planted,
-      ),
-      detail: `L set ${Math.abs(shift).toFixed(2)} dex ${kind === 'ml-bright' ? 'above' : 'below'} Eker 2018 at M = ${v[C.mass]} M_sun; Teff follows from Stefan-Boltzmann with the same R, so the row stays self-consistent`,
+      alsoChanged: [
+        change(C.eLum, v[C.eLum], el),
+        change(C.teff, v[C.teff], t),
+        change(C.eTeff, v[C.eTeff], et),
+        change(C.mbol, v[C.mbol], mb),
+      ].filter((c) => c.original !== c.planted),
+      detail: `L set ${Math.abs(shift).toFixed(2)} dex ${kind === 'ml-bright' ? 'above' : 'below'} Eker 2018 at M = ${v[C.mass]} M_sun; Teff follows from Stefan-Boltzmann with the same R and M_bol from L, so the row stays self-consistent`,
     };
     v[C.lum] = l;
     v[C.eLum] = el;
     v[C.teff] = t;
     v[C.eTeff] = et;
+    v[C.mbol] = mb;
     return out;
   };
 }
@@ -527,7 +667,7 @@ function missing(column: number): Attempt {
     // Off the main sequence, R and Teff are what pins the luminosity's unit; leave them.
     if (s.stage !== 'MS' && (column === C.radius || column === C.teff)) return null;
     const v = s.v;
-    const out: Omit<PlantedEntry, 'row' | 'id'> = {
+    const out: Entry = {
       kind: 'missing',
       ...change(column, v[column], NaN),
       expect: [],
@@ -541,24 +681,441 @@ function missing(column: number): Attempt {
   };
 }
 
+// --- Unit slips and slipped decimal points in the other columns. ---------------------------------
+
+/** Changes one cell (and its error, by the same factor), returning the entry. */
+function scaleCell(v: Float64Array, column: number, factor: number, withError: boolean): CellChange[] {
+  const x = val(v[column] * factor);
+  const changes = [change(column, v[column], x)];
+  v[column] = x;
+  if (withError) {
+    const e = err(v[column + 1] * factor);
+    changes.push(change(column + 1, v[column + 1], e));
+    v[column + 1] = e;
+  }
+  return changes;
+}
+
+function entryOf(kind: PlantKind, changes: CellChange[], expect: Expectation[], alsoAllowed: string[], detail: string): Entry {
+  const [first, ...rest] = changes;
+  return { kind, ...first, expect, alsoAllowed, ...(rest.length > 0 ? { alsoChanged: rest } : {}), detail };
+}
+
+/** Well below the X = 0.7 Eddington limit even at L + 3 sigma and M - 3 sigma, with room for a factor `room`. */
+function farBelowEddington(v: Float64Array, room: number): boolean {
+  return room * (v[C.lum] + 3 * v[C.eLum]) < 0.8 * LEDD_X07 * (v[C.mass] - 3 * v[C.eMass]);
+}
+
+/**
+ * L with its decimal point one place to the right; the error is the true one, as when one cell is
+ * retyped. Stefan-Boltzmann, the mass-luminosity relation (main sequence) and M_bol then all miss
+ * by 1 dex (2.5 mag), which those rules may report too.
+ */
+const lumTimesTen: Attempt = (s) => {
+  const v = s.v;
+  if (s.kind === 'vms' || s.kind === 'wd' || !farBelowEddington(v, 20)) return null;
+  const l = v[C.lum];
+  return entryOf(
+    'lum-times-ten',
+    scaleCell(v, C.lum, 10, false),
+    [{ rule: 'decimal-shift', severity: 'warning' }],
+    ['stefan-boltzmann-mismatch', 'mass-luminosity-outlier', 'bolometric-magnitude-mismatch'],
+    `luminosity written with its decimal point one place off (${l} L_sun written as ${v[C.lum]}); its error, R, Teff and M_bol are the true star's`,
+  );
+};
+
+function unitFactor(kind: 'mass-in-kg' | 'radius-in-km', column: number, factor: number, unit: string, rule: string): Attempt {
+  return (s) => {
+    if (s.kind === 'vms') return null;
+    const before = s.v[column];
+    return entryOf(
+      kind,
+      scaleCell(s.v, column, factor, true),
+      [{ rule, severity: 'error' }],
+      [],
+      `${NUMERIC[column]} and its error written in ${unit} under the solar-units header (${before} x ${factor.toPrecision(6)})`,
+    );
+  };
+}
+
+/** log10 Teff in the kelvin column, with its error in dex; Teff stays a value no star has. */
+const logTeff: Attempt = (s) => {
+  const v = s.v;
+  const t = v[C.teff];
+  const x = val(Math.log10(t));
+  const e = err(v[C.eTeff] / (t * Math.LN10));
+  const changes = [change(C.teff, t, x), change(C.eTeff, v[C.eTeff], e)];
+  v[C.teff] = x;
+  v[C.eTeff] = e;
+  return entryOf('log-teff', changes, [{ rule: 'temperature-unit-mixup', severity: 'error' }], [], `log10 Teff (and its error in dex) written in the kelvin column; the star has Teff = ${t} K`);
+};
+
+/** log g in SI (m s^-2): 2 dex below the cgs value the header declares. Main-sequence and giant rows. */
+const loggSi: Attempt = (s) => {
+  const v = s.v;
+  if (s.kind === 'wd') return null;
+  const g = v[C.logg];
+  const x = val(g - 2);
+  const changes = [change(C.logg, g, x)];
+  v[C.logg] = x;
+  return entryOf('logg-si', changes, [{ rule: 'gravity-unit-mixup', severity: 'error' }], [], `logg written in log(m s^-2), 2 dex below the cgs value ${g}`);
+};
+
+/** Mass and radius typed into each other's columns, errors with them; only where they differ by 0.5 dex or more. */
+const massRadiusSwap: Attempt = (s) => {
+  const v = s.v;
+  if (s.kind === 'wd' || s.kind === 'vms' || !(Math.abs(Math.log10(v[C.mass] / v[C.radius])) >= 0.5)) return null;
+  const [m, em, r, er] = [v[C.mass], v[C.eMass], v[C.radius], v[C.eRadius]];
+  const changes = [change(C.mass, m, r), change(C.eMass, em, er), change(C.radius, r, m), change(C.eRadius, er, em)];
+  v[C.mass] = r;
+  v[C.eMass] = er;
+  v[C.radius] = m;
+  v[C.eRadius] = em;
+  return entryOf('mass-radius-swap', changes, [{ rule: 'swapped-columns', severity: 'error' }], [], `mass (${m} M_sun) and radius (${r} R_sun) exchanged, with their errors`);
+};
+
+// --- Values the row's own relations contradict. -------------------------------------------------
+
+const dex = (e: number, x: number) => e / (x * Math.LN10);
+
+/**
+ * Sigmas of a Stefan-Boltzmann miss as the rule judges it: errors in dex (R twice, Teff four times)
+ * and its 0.1 dex tolerance, in quadrature.
+ */
+function stefanBoltzmannSigmas(v: Float64Array): number {
+  const resid = Math.log10(v[C.lum]) - logLuminosityFromRadiusTeff(v[C.radius], v[C.teff]);
+  const sd = Math.hypot(dex(v[C.eLum], v[C.lum]), 2 * dex(v[C.eRadius], v[C.radius]), 4 * dex(v[C.eTeff], v[C.teff]), 0.1);
+  return Math.abs(resid) / sd;
+}
+
+/** The same for logg against G M / R^2, with that rule's 0.05 dex tolerance. */
+function gravitySigmas(v: Float64Array): number {
+  const resid = v[C.logg] - loggFromMassRadius(v[C.mass], v[C.radius]);
+  const sd = Math.hypot(v[C.eLogg], dex(v[C.eMass], v[C.mass]), 2 * dex(v[C.eRadius], v[C.radius]), 0.05);
+  return Math.abs(resid) / sd;
+}
+
+/** Teff 30 % off (from another source, say) with L and R kept: the row misses Stefan-Boltzmann by 0.46-0.62 dex. */
+const teffOff: Attempt = (s, rng) => {
+  const v = s.v;
+  if (s.kind === 'wd') return null;
+  const t0 = v[C.teff];
+  const et0 = v[C.eTeff];
+  const t = val(t0 * (rng.next() < 0.5 ? 0.7 : 1.3));
+  if (!(t >= 3000 && t <= 45_000)) return null;
+  v[C.teff] = t;
+  v[C.eTeff] = err(teffError(t, s.teffDraw));
+  if (!(stefanBoltzmannSigmas(v) >= 4.5)) {
+    v[C.teff] = t0;
+    v[C.eTeff] = et0;
+    return null;
+  }
+  return entryOf(
+    'teff-off',
+    [change(C.teff, t0, t), change(C.eTeff, et0, v[C.eTeff])].filter((c) => c.original !== c.planted),
+    [{ rule: 'stefan-boltzmann-mismatch', severity: 'warning' }],
+    [],
+    `Teff ${t > t0 ? '30 % too hot' : '30 % too cool'} (true ${t0} K); L and R kept, so the row misses Stefan-Boltzmann by ${Math.abs(4 * Math.log10(t / t0)).toFixed(2)} dex`,
+  );
+};
+
+/**
+ * logg 0.55-0.75 dex off G M / R^2 on a main-sequence row, staying inside the main-sequence band:
+ * far from the 1 dex of a tenfold mass and the 2 dex of SI units, so only the gravity rule can speak.
+ */
+const loggOff: Attempt = (s, rng) => {
+  const v = s.v;
+  if (s.kind !== 'ms') return null;
+  const g0 = v[C.logg];
+  const step = rng.uniform(0.55, 0.75);
+  const g = val(g0 + step > 5.3 ? g0 - step : g0 - step < 3.7 ? g0 + step : rng.next() < 0.5 ? g0 - step : g0 + step);
+  if (!(g >= 3.7 && g <= 5.3)) return null;
+  v[C.logg] = g;
+  if (!(gravitySigmas(v) >= 4.5)) {
+    v[C.logg] = g0;
+    return null;
+  }
+  return entryOf(
+    'logg-off',
+    [change(C.logg, g0, g)],
+    [{ rule: 'surface-gravity-mismatch', severity: 'warning' }],
+    [],
+    `logg ${Math.abs(g - g0).toFixed(2)} dex ${g > g0 ? 'above' : 'below'} G M / R^2 (true ${g0}); M and R kept`,
+  );
+};
+
+/** M_bol with its sign dropped or flipped; only where |M_bol| >= 2, so the miss is 4 mag or more. */
+const mbolSign: Attempt = (s) => {
+  const v = s.v;
+  const m = v[C.mbol];
+  if (!(Math.abs(m) >= 2)) return null;
+  const changes = [change(C.mbol, m, -m)];
+  v[C.mbol] = -m;
+  return entryOf('mbol-sign', changes, [{ rule: 'bolometric-magnitude-mismatch', severity: 'error' }], [], `M_bol written with the wrong sign (true ${m})`);
+};
+
+/** M_bol one magnitude off (a mistyped units digit): 0.4 dex in L, well over the rule's tolerance. */
+const mbolOneMag: Attempt = (s, rng) => {
+  const v = s.v;
+  const m = v[C.mbol];
+  const sd = Math.hypot(2.5 * dex(v[C.eLum], v[C.lum]), 0.1);
+  if (!(1 / sd >= 4.5)) return null;
+  const x = mag(m + (rng.next() < 0.5 ? -1 : 1));
+  const changes = [change(C.mbol, m, x)];
+  v[C.mbol] = x;
+  return entryOf('mbol-one-mag', changes, [{ rule: 'bolometric-magnitude-mismatch', severity: 'warning' }], [], `M_bol one magnitude ${x > m ? 'too faint' : 'too bright'} (true ${m})`);
+};
+
+/** The distance in kpc, or the parallax (and its error) in arcsec, under the pc and mas headers. */
+function parallaxUnit(kind: 'dist-in-kpc' | 'parallax-in-arcsec'): Attempt {
+  return (s) => {
+    const v = s.v;
+    const column = kind === 'dist-in-kpc' ? C.dist : C.plx;
+    const before = v[column];
+    return entryOf(
+      kind,
+      scaleCell(v, column, 1e-3, kind === 'parallax-in-arcsec'),
+      [{ rule: 'parallax-distance-mismatch', severity: 'error' }],
+      [],
+      kind === 'dist-in-kpc' ? `distance written in kpc (${before} pc)` : `parallax and its error written in arcsec (${before} mas)`,
+    );
+  };
+}
+
+// --- Values no star (or no star of its class) has, codes, and broken uncertainties. -------------
+
+/**
+ * A mass below the hydrogen-burning limit on a late-M dwarf's row, with logg recomputed from it, so
+ * the row stays consistent; the mass-luminosity relations do not reach below 0.1 M_sun.
+ */
+const brownDwarfMass: Attempt = (s, rng) => {
+  const v = s.v;
+  if (s.kind !== 'ms' || !(v[C.mass] < 0.2)) return null;
+  const m = val(rng.uniform(0.04, 0.055));
+  const em = err(s.relMass * m);
+  // Below the 0.075 M_sun limit even at 3 sigma towards it.
+  if (!(m + 3 * em < 0.072)) return null;
+  const g = val(loggFromMassRadius(m, v[C.radius]));
+  if (!(g >= 3.7 && g <= 5.4)) return null;
+  const changes = [change(C.mass, v[C.mass], m), change(C.eMass, v[C.eMass], em), change(C.logg, v[C.logg], g)];
+  v[C.mass] = m;
+  v[C.eMass] = em;
+  v[C.logg] = g;
+  return entryOf('brown-dwarf-mass', changes, [{ rule: 'value-out-of-range', severity: 'warning' }], [], `mass set to ${m} M_sun, below the hydrogen-burning limit, on a row labelled MS; logg follows from M and R`);
+};
+
+/** A distance of exactly 0 pc (a placeholder written as a number). */
+const zeroDistance: Attempt = (s) => {
+  const v = s.v;
+  const changes = [change(C.dist, v[C.dist], 0)];
+  v[C.dist] = 0;
+  return entryOf('zero-distance', changes, [{ rule: 'value-out-of-range', severity: 'error' }], [], 'distance written as 0 pc');
+};
+
+/** -999 for "not measured" in a value column (Teff twice, then the mass); one note per column. */
+const SENTINEL_COLUMNS = [C.teff, C.teff, C.mass] as const;
+
+function sentinel(column: number): Attempt {
+  return (s) => {
+    const changes = [change(column, s.v[column], -999)];
+    s.v[column] = -999;
+    const e = entryOf('sentinel', changes, [], [], `${NUMERIC[column]} written as -999 for a missing value (its error kept)`);
+    return { ...e, expectColumn: [{ rule: 'sentinel-value', severity: 'note', column: NUMERIC[column] }] };
+  };
+}
+
+/** A symmetric error written negative. */
+const NEGATIVE_ERROR_COLUMNS = [C.eMass, C.eRadius, C.ePlx] as const;
+
+function negativeError(column: number): Attempt {
+  return (s) => {
+    const changes = [change(column, s.v[column], -s.v[column])];
+    s.v[column] = -s.v[column];
+    return entryOf('negative-error', changes, [{ rule: 'uncertainty-invalid', severity: 'error' }], [], `${NUMERIC[column]} written negative`);
+  };
+}
+
+// --- Duplicates: the row is replaced by a copy of an earlier row of the same stage. -----------
+
+/**
+ * Picks an earlier clean row of the same stage (with [Fe/H] where the copy changes it), scanning
+ * on from a random row below `index`; marks it taken so no later kind alters it.
+ */
+function pickSource(block: BlockPick, rng: Rng, ok: (src: Star) => boolean): number {
+  const { stars, index, taken } = block;
+  if (index < 1) return -1;
+  const start = rng.int(index);
+  for (let step = 0; step < index; step++) {
+    const j = (start + step) % index;
+    if (taken[j] || !isFiniteAll(stars[j].v) || stars[j].stage !== stars[index].stage || !ok(stars[j])) continue;
+    taken[j] = 1;
+    block.source = j;
+    return j;
+  }
+  return -1;
+}
+
+function duplicate(kind: 'same-id' | 'same-row' | 'conflicting-mass'): Attempt {
+  return (s, rng, block) => {
+    if (kind === 'conflicting-mass' && s.stage !== 'giant') return null;
+    const j = pickSource(block, rng, (src) => kind !== 'same-id' || Number.isFinite(src.v[C.feh]));
+    if (j < 0) return null;
+    const src = block.stars[j];
+    const v = src.v.slice();
+    const differs: CellChange[] = [];
+    const set = (column: number, x: number) => {
+      differs.push(change(column, v[column], x));
+      v[column] = x;
+    };
+    let expect: Expectation[];
+    let detail: string;
+    if (kind === 'same-id') {
+      // The same star listed again from a second source that gives another [Fe/H].
+      set(C.feh, Number((v[C.feh] + (rng.next() < 0.5 ? -1 : 1) * rng.uniform(0.05, 0.15)).toFixed(2)) + 0);
+      expect = [{ rule: 'duplicate-id', severity: 'warning' }];
+      detail = 'the star of the earlier row listed again with another [Fe/H]; every other value the same';
+    } else if (kind === 'same-row') {
+      expect = [
+        { rule: 'duplicate-row', severity: 'warning' },
+        { rule: 'duplicate-id', severity: 'warning' },
+      ];
+      detail = 'an exact copy of the earlier row';
+    } else {
+      // A second source with three times the mass; its logg follows from that mass and the same R.
+      const m = val(v[C.mass] * 3);
+      set(C.mass, m);
+      set(C.eMass, err(src.relMass * m));
+      set(C.logg, val(loggFromMassRadius(m, v[C.radius])));
+      expect = [
+        { rule: 'conflicting-duplicate', severity: 'warning' },
+        { rule: 'duplicate-id', severity: 'warning' },
+      ];
+      detail = `the giant of the earlier row listed again with three times its mass (${src.v[C.mass]} -> ${m} M_sun), logg from that mass`;
+    }
+    const copy: Star = { ...src, v, idIndex: j };
+    block.stars[block.index] = copy;
+    const expectColumn: ColumnExpectation[] = [{ rule: 'duplicate-id', severity: 'note', column: 'star_id' }];
+    if (kind === 'same-row') expectColumn.push({ rule: 'duplicate-row', severity: 'note' });
+    return {
+      kind,
+      column: 'star_id',
+      original: starId(block.index + 1),
+      planted: starId(j + 1),
+      expect,
+      alsoAllowed: [],
+      expectColumn,
+      copyOf: { differs },
+      detail,
+    };
+  };
+}
+
+// --- Text-level slips, which only the CSV holds. ----------------------------------------------
+
+const TEXT_SLIPS: readonly { column: number; text: (x: number) => string; what: string }[] = [
+  { column: C.mass, text: (x) => `${x}?`, what: 'a value marked uncertain with a question mark' },
+  { column: C.teff, text: (x) => `~${x}`, what: 'an approximate value marked with a tilde' },
+  { column: C.radius, text: (x) => String(x).replace('.', '..'), what: 'a doubled decimal point' },
+];
+
+function textInNumber(slip: (typeof TEXT_SLIPS)[number]): Attempt {
+  return (s) => {
+    const x = s.v[slip.column];
+    const text = slip.text(x);
+    s.csvText = { [slip.column]: text };
+    s.v[slip.column] = NaN;
+    return {
+      ...entryOf('text-in-number', [change(slip.column, x, text)], [{ rule: 'unparseable-value', severity: 'warning' }], [], `${NUMERIC[slip.column]} written as "${text}": ${slip.what}`),
+      csvOnly: true,
+    };
+  };
+}
+
+/** Records cut short: the last fields missing (the reader takes them as empty). */
+const RAGGED_DROPS = [5, 2] as const;
+
+function raggedRow(dropped: number): Attempt {
+  return (s) => {
+    const v = s.v;
+    const changes: CellChange[] = [];
+    for (let c = NUMERIC.length - dropped + 1; c < NUMERIC.length; c++) {
+      changes.push(change(c, v[c], NaN));
+      v[c] = NaN;
+    }
+    changes.push({ column: 'stage', original: s.stage, planted: null });
+    s.csvDropped = dropped;
+    return {
+      ...entryOf('ragged-row', changes, [{ rule: 'malformed-row', severity: 'error' }], [], `the record ends after ${NUMERIC[NUMERIC.length - dropped]}: its last ${dropped} fields are missing`),
+      csvOnly: true,
+    };
+  };
+}
+
+function attemptFor(kind: PlantKind, j: number): Attempt {
+  switch (kind) {
+    case 'watts':
+      return unitSlip('watts', L_SUN_W, 'W');
+    case 'erg':
+      return unitSlip('erg', L_SUN_W * 1e7, 'erg/s');
+    case 'log-in-linear':
+      return logInLinear;
+    case 'super-eddington':
+    case 'eddington-warning':
+      return wrongMass(kind);
+    case 'ml-faint':
+    case 'ml-bright':
+      return offRelation(kind);
+    case 'missing':
+      return missing(MISSING_COLUMNS[j % MISSING_COLUMNS.length]);
+    case 'lum-times-ten':
+      return lumTimesTen;
+    case 'mass-in-kg':
+      return unitFactor(kind, C.mass, M_SUN_KG, 'kg', 'mass-unit-mixup');
+    case 'radius-in-km':
+      return unitFactor(kind, C.radius, R_SUN_M / 1000, 'km', 'radius-unit-mixup');
+    case 'log-teff':
+      return logTeff;
+    case 'logg-si':
+      return loggSi;
+    case 'mass-radius-swap':
+      return massRadiusSwap;
+    case 'teff-off':
+      return teffOff;
+    case 'logg-off':
+      return loggOff;
+    case 'mbol-sign':
+      return mbolSign;
+    case 'mbol-one-mag':
+      return mbolOneMag;
+    case 'dist-in-kpc':
+    case 'parallax-in-arcsec':
+      return parallaxUnit(kind);
+    case 'sentinel':
+      return sentinel(SENTINEL_COLUMNS[j % SENTINEL_COLUMNS.length]);
+    case 'negative-error':
+      return negativeError(NEGATIVE_ERROR_COLUMNS[j % NEGATIVE_ERROR_COLUMNS.length]);
+    case 'brown-dwarf-mass':
+      return brownDwarfMass;
+    case 'zero-distance':
+      return zeroDistance;
+    case 'same-id':
+    case 'same-row':
+    case 'conflicting-mass':
+      return duplicate(kind);
+    case 'text-in-number':
+      return textInNumber(TEXT_SLIPS[j % TEXT_SLIPS.length]);
+    case 'ragged-row':
+      return raggedRow(RAGGED_DROPS[j % RAGGED_DROPS.length]);
+  }
+}
+
 function plantBlock(rng: Rng, stars: Star[], scale: number): Planted[] {
   const taken = new Uint8Array(stars.length);
   const planted: Planted[] = [];
   for (const [kind, full] of PLANT_COUNTS) {
     const want = Math.round(full * scale);
     for (let j = 0; j < want; j++) {
-      const attempt: Attempt =
-        kind === 'watts'
-          ? unitSlip('watts', L_SUN_W, 'W')
-          : kind === 'erg'
-            ? unitSlip('erg', L_SUN_W * 1e7, 'erg/s')
-            : kind === 'log-in-linear'
-              ? logInLinear
-              : kind === 'super-eddington' || kind === 'eddington-warning'
-                ? wrongMass(kind)
-                : kind === 'ml-faint' || kind === 'ml-bright'
-                  ? offRelation(kind)
-                  : missing(MISSING_COLUMNS[j % MISSING_COLUMNS.length]);
+      const attempt = attemptFor(kind, j);
       // Scanning on from a random row visits every row once without building a candidate list.
       const n = stars.length;
       const start = rng.int(n);
@@ -566,11 +1123,12 @@ function plantBlock(rng: Rng, stars: Star[], scale: number): Planted[] {
       for (let step = 0; step < n && !done; step++) {
         const i = (start + step) % n;
         if (taken[i] || !isFiniteAll(stars[i].v)) continue;
-        // An attempt changes the star only when it succeeds.
-        const entry = attempt(stars[i], rng);
+        // An attempt changes the star (or its place in the block) only when it succeeds.
+        const block: BlockPick = { stars, index: i, taken, source: -1 };
+        const entry = attempt(stars[i], rng, block);
         if (!entry) continue;
         taken[i] = 1;
-        planted.push({ index: i, entry });
+        planted.push({ index: i, source: block.source, entry });
         done = true;
       }
     }
@@ -614,7 +1172,7 @@ class ArrowFileOut {
   private readonly writer = new RecordBatchFileWriter();
   private readonly drained: Promise<void>;
   private readonly ids: string[] = [];
-  private readonly stages: string[] = [];
+  private readonly stages: (string | null)[] = [];
   private readonly cols = NUMERIC.map(() => new Float64Array(ARROW_BATCH_ROWS + BLOCK_ROWS));
   private n = 0;
   constructor(private readonly fd: number) {
@@ -623,7 +1181,7 @@ class ArrowFileOut {
     })();
   }
   /** Rows are added a block at a time; a batch is cut once it holds ARROW_BATCH_ROWS rows. */
-  add(id: string, stage: string, v: Float64Array): void {
+  add(id: string, stage: string | null, v: Float64Array): void {
     this.ids.push(id);
     this.stages.push(stage);
     for (let c = 0; c < v.length; c++) this.cols[c][this.n] = v[c];
@@ -688,6 +1246,7 @@ export async function makeSamples(options: MakeOptions = {}): Promise<MakeSummar
   // The planting stream is separate, so --no-plant gives the same stars without the errors.
   const popRng = new Rng(seed);
   const plantRng = new Rng((seed ^ 0x9e3779b9) >>> 0);
+  const astroRng = new Rng((seed ^ 0x85ebca6b) >>> 0);
 
   const tmp = (p: string) => `${p}.${process.pid}.tmp`;
   const csvFd = openSync(tmp(files.csv), 'w');
@@ -701,7 +1260,8 @@ export async function makeSamples(options: MakeOptions = {}): Promise<MakeSummar
       `# ${SURVEY}, data release 1 (${RELEASE}): an invented survey, made for the starsieve demos.`,
       `# Made by sample-catalogs/make-samples.ts --rows ${rows} --seed ${seed}${plant ? '' : ' --no-plant'}.`,
       '# Units: mass M_sun; lum L_sun (IAU 2015 nominal, 3.828e26 W); radius R_sun (nominal); teff K;',
-      '# logg log10(g / cm s^-2); feh dex. Each e_ column is the 1-sigma error of the column before it.',
+      '# logg log10(g / cm s^-2); feh dex; parallax mas; dist pc (1000 / parallax); mbol absolute bolometric',
+      '# magnitude on the IAU 2015 B2 scale (4.74 for the Sun). Each e_ column is the 1-sigma error of the column before it.',
       '# stage: MS (main sequence), giant, WD (white dwarf). An empty cell is a missing value.',
       plant ? '# Some rows carry deliberate errors; the matching .truth.json file lists them.' : '# No deliberate errors were planted.',
       COLUMNS.join(','),
@@ -714,24 +1274,28 @@ export async function makeSamples(options: MakeOptions = {}): Promise<MakeSummar
     let firstEntry = true;
     for (let first = 0; first < rows; first += BLOCK_ROWS) {
       const n = Math.min(BLOCK_ROWS, rows - first);
-      const stars = makeBlock(popRng, n);
+      const stars = makeBlock(popRng, astroRng, n);
       const planted = plant ? plantBlock(plantRng, stars, n / BLOCK_ROWS) : [];
       let text = '';
       for (let i = 0; i < n; i++) {
         const s = stars[i];
-        const id = starId(first + i + 1);
+        const id = starId(first + (s.idIndex ?? i) + 1);
         stages[s.stage]++;
-        let line = id;
-        for (let c = 0; c < s.v.length; c++) line += ',' + cell(s.v[c]);
-        text += line + ',' + s.stage + '\n';
-        arrow.add(id, s.stage, s.v);
+        text += csvLine(id, s) + '\n';
+        arrow.add(id, s.csvDropped ? null : s.stage, s.v);
       }
       writeSync(csvFd, text);
       await arrow.endBlock();
       let entries = '';
       for (const p of planted) {
         const row = first + p.index + 1;
-        const entry: PlantedEntry = { row, id: starId(row), ...p.entry };
+        const { copyOf, ...rest } = p.entry;
+        const entry: PlantedEntry = {
+          row,
+          id: starId(p.source >= 0 ? first + p.source + 1 : row),
+          ...rest,
+          ...(copyOf ? { copyOf: { row: first + p.source + 1, differs: copyOf.differs } } : {}),
+        };
         plantedCounts[entry.kind]++;
         entries += (firstEntry ? '\n    ' : ',\n    ') + JSON.stringify(entry);
         firstEntry = false;

@@ -13,6 +13,7 @@ import type { Readable } from 'node:stream';
 import Papa from 'papaparse';
 import type { ParseError } from 'papaparse';
 import { batchSizeOf, describeIoError, displayName, uniqueColumnNames } from './common.js';
+import { opened } from './source.js';
 import {
   InputError,
   type CatalogReader,
@@ -57,14 +58,7 @@ const QUOTE = 34;
 const CR_RE = /\r\n?/g;
 
 export async function openCsv(path: string, options: CsvOptions = {}): Promise<CatalogReader> {
-  const reader = new CsvReader(path, options);
-  try {
-    await reader.open();
-  } catch (err) {
-    await reader.close();
-    throw err;
-  }
-  return reader;
+  return opened(new CsvReader(path, options));
 }
 
 class CsvReader implements CatalogReader {

@@ -4,7 +4,7 @@ import { ecsvUnit } from '../../../cli/readers/ecsv.js';
 import { openCatalog } from '../../../cli/readers/open.js';
 import { InputError } from '../../../cli/readers/types.js';
 import { ecsv, type TableColumn } from '../../helpers/table-writers.js';
-import { collect, failure, TempDir } from './helpers.js';
+import { collect, damagedFileCases, failure, TempDir } from './helpers.js';
 
 const tmp = new TempDir();
 afterAll(() => tmp.remove());
@@ -78,22 +78,15 @@ describe('ECSV', () => {
 
   describe('broken headers are InputErrors with the line and column in the file', () => {
     const good = ecsv(COLUMNS).join('');
-    const cases: [string, string, RegExp, string][] = [
-      ['bad YAML', good.replace('# - {name: "mass"', '# - {name: "mass" ]'), /line 5, column \d+: the ECSV header is not valid YAML/, 'line 5'],
-      ['no datatype list', '# %ECSV 1.0\n# ---\n# delimiter: ","\na,b\n1,2\n', /has no `datatype` list/, 'line 3'],
-      ['a delimiter ECSV does not allow', good.replace('# datatype:', "# delimiter: ';'\n# datatype:"), /delimiter ";" is not allowed/, 'line 3'],
-      ['an entry without a datatype', good.replace(', datatype: int32', ''), /column `n` has no datatype/, 'line 8'],
-      ['a header line without "# "', good.replace('# - {name: "lum"', '#- {name: "lum"'), /must start with `# `/, 'line 6'],
-      ['more names than columns', good.replace('name mass lum logg n flag', 'name mass lum logg n flag extra'), /has 7 names, but the ECSV header describes 6 columns/, 'line 10'],
+    const cases: [string, string, RegExp, RegExp][] = [
+      ['bad YAML', good.replace('# - {name: "mass"', '# - {name: "mass" ]'), /line 5, column \d+: the ECSV header is not valid YAML/, /line 5/],
+      ['no datatype list', '# %ECSV 1.0\n# ---\n# delimiter: ","\na,b\n1,2\n', /has no `datatype` list/, /line 3/],
+      ['a delimiter ECSV does not allow', good.replace('# datatype:', "# delimiter: ';'\n# datatype:"), /delimiter ";" is not allowed/, /line 3/],
+      ['an entry without a datatype', good.replace(', datatype: int32', ''), /column `n` has no datatype/, /line 8/],
+      ['a header line without "# "', good.replace('# - {name: "lum"', '#- {name: "lum"'), /must start with `# `/, /line 6/],
+      ['more names than columns', good.replace('name mass lum logg n flag', 'name mass lum logg n flag extra'), /has 7 names, but the ECSV header describes 6 columns/, /line 10/],
     ];
-    for (const [what, text, message, line] of cases) {
-      it(what, async () => {
-        const err = await failure(openCatalog(tmp.write(`bad-${what.replace(/\W+/g, '-')}.ecsv`, text)).then(collect));
-        expect(err).toBeInstanceOf(InputError);
-        expect((err as InputError).message).toMatch(message);
-        expect((err as InputError).position).toContain(line);
-      });
-    }
+    damagedFileCases(tmp, '.ecsv', cases);
 
     it('a CSV forced to ECSV', async () => {
       const err = await failure(openCatalog(tmp.write('plain.csv', 'a,b\n1,2\n'), { format: 'ecsv' }));

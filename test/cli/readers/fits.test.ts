@@ -6,7 +6,7 @@ import { canSelectColumns } from '../../../cli/readers/projection.js';
 import { InputError } from '../../../cli/readers/types.js';
 import { REFERENCE, SKIP_SHARED, hasShared } from '../../helpers/cli.js';
 import { fitsBintable, fitsCard, fitsHeader, fitsImage, fitsPrimary, fitsTableFile, type FitsColumn } from '../../helpers/table-writers.js';
-import { collect, failure, TempDir } from './helpers.js';
+import { collect, damagedFileCases, failure, TempDir } from './helpers.js';
 
 const tmp = new TempDir();
 afterAll(() => tmp.remove());
@@ -198,14 +198,7 @@ describe('FITS binary tables', () => {
         /HDU 1, header card 4/,
       ],
     ];
-    for (const [what, bytes, message, position] of cases) {
-      it(what, async () => {
-        const err = await failure(openCatalog(tmp.write(`bad-${what.replace(/\W+/g, '-')}.fits`, bytes)).then(collect));
-        expect(err).toBeInstanceOf(InputError);
-        expect((err as InputError).message).toMatch(message);
-        expect((err as InputError).position).toMatch(position);
-      });
-    }
+    damagedFileCases(tmp, '.fits', cases);
 
     it('a truncated gzip FITS is found while streaming, at the row where it ends', async () => {
       const gz = gzipSync(good);

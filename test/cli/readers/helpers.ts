@@ -5,7 +5,9 @@
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import type { CatalogReader, RawBatch } from '../../../cli/readers/types.js';
+import { expect, it } from 'vitest';
+import { openCatalog } from '../../../cli/readers/open.js';
+import { InputError, type CatalogReader, type RawBatch } from '../../../cli/readers/types.js';
 
 export interface Collected {
   columns: string[];
@@ -86,4 +88,19 @@ export async function failure(p: Promise<unknown>): Promise<unknown> {
     return err;
   }
   throw new Error('expected a failure, but the call succeeded');
+}
+
+/**
+ * One test per damaged file: opening and reading it must fail with an InputError whose message
+ * and position match. Cases are [what, file content, message, position].
+ */
+export function damagedFileCases(tmp: TempDir, ext: string, cases: readonly (readonly [string, string | Uint8Array, RegExp, RegExp])[]): void {
+  for (const [what, content, message, position] of cases) {
+    it(what, async () => {
+      const err = await failure(openCatalog(tmp.write(`bad-${what.replace(/\W+/g, '-')}${ext}`, content)).then(collect));
+      expect(err).toBeInstanceOf(InputError);
+      expect((err as InputError).message).toMatch(message);
+      expect((err as InputError).position).toMatch(position);
+    });
+  }
 }

@@ -5,7 +5,7 @@ import { openCatalog } from '../../../cli/readers/open.js';
 import { InputError } from '../../../cli/readers/types.js';
 import { REFERENCE, SKIP_SHARED, hasShared } from '../../helpers/cli.js';
 import { votable, type VoColumn, type VoTable } from '../../helpers/table-writers.js';
-import { collect, failure, TempDir } from './helpers.js';
+import { collect, damagedFileCases, failure, TempDir } from './helpers.js';
 
 const tmp = new TempDir();
 afterAll(() => tmp.remove());
@@ -169,14 +169,7 @@ describe('VOTable', () => {
       ['a remote stream', good.replace('<STREAM encoding="base64">', '<STREAM href="http://example.org/x.bin">'), /remote STREAM/, /line/],
       ['an unknown datatype', td.replace('datatype="double"', 'datatype="real"'), /datatype "real", which VOTable does not define/, /line/],
     ];
-    for (const [what, text, message, position] of cases) {
-      it(what, async () => {
-        const err = await failure(openCatalog(tmp.write(`bad-${what.replace(/\W+/g, '-')}.vot`, text)).then(collect));
-        expect(err).toBeInstanceOf(InputError);
-        expect((err as InputError).message).toMatch(message);
-        expect((err as InputError).position).toMatch(position);
-      });
-    }
+    damagedFileCases(tmp, '.vot', cases);
   });
 });
 
