@@ -1,6 +1,8 @@
 /**
  * Builds the demo catalogs of the Thistlewood Stellar Census (an invented survey), data release 1:
  * a CSV, the same table as an Arrow IPC file, and a ground-truth file listing every planted error.
+ * The Arrow file holds what a reader of the CSV gets; only the text-level slips (text in a numeric
+ * cell, a record cut short) differ, as nulls there (see CSV_ONLY_NOTE).
  *
  *   npx tsx sample-catalogs/make-samples.ts                      # the committed 3000-row sample
  *   npx tsx sample-catalogs/make-samples.ts --rows 1000000 --seed 7 --out /tmp/tw1m --no-plant
@@ -477,6 +479,8 @@ export const PLANT_COUNTS: readonly [PlantKind, number][] = [
 
 /** Kinds whose slip only a text format can hold (see `csvOnly`). */
 export const CSV_ONLY_KINDS: readonly PlantKind[] = ['text-in-number', 'ragged-row'];
+export const CSV_ONLY_NOTE =
+  'Entries with csvOnly are text-level slips (text in a numeric cell, a record cut short) that only the CSV can hold. The Arrow file holds what the CSV reader makes of those cells (nulls), so their expected findings appear in the CSV only, and the Arrow file has no finding on those rows; every other finding is the same in both.';
 
 const UNIT_MIXUP: Expectation[] = [{ rule: 'luminosity-unit-mixup', severity: 'error' }];
 /**
@@ -707,13 +711,15 @@ function farBelowEddington(v: Float64Array, room: number): boolean {
 }
 
 /**
- * L with its decimal point one place to the right; the error is the true one, as when one cell is
- * retyped. Stefan-Boltzmann, the mass-luminosity relation (main sequence) and M_bol then all miss
- * by 1 dex (2.5 mag), which those rules may report too.
+ * L with its decimal point one place to the right on a main-sequence row; the error is the true
+ * one, as when one cell is retyped. Stefan-Boltzmann, the mass-luminosity relation and M_bol then
+ * all miss by 1 dex (2.5 mag), which those rules may report too. Not on giants: there only
+ * Stefan-Boltzmann holds L, and decimal-shift wants Teff vouched for by a second relation before
+ * it blames L (reported to the lead).
  */
 const lumTimesTen: Attempt = (s) => {
   const v = s.v;
-  if (s.kind === 'vms' || s.kind === 'wd' || !farBelowEddington(v, 20)) return null;
+  if (s.kind !== 'ms' || !farBelowEddington(v, 20)) return null;
   const l = v[C.lum];
   return entryOf(
     'lum-times-ten',
@@ -761,10 +767,17 @@ const loggSi: Attempt = (s) => {
   return entryOf('logg-si', changes, [{ rule: 'gravity-unit-mixup', severity: 'error' }], [], `logg written in log(m s^-2), 2 dex below the cgs value ${g}`);
 };
 
-/** Mass and radius typed into each other's columns, errors with them; only where they differ by 0.5 dex or more. */
-const massRadiusSwap: Attempt = (s) => {
+/**
+ * Mass and radius typed into each other's columns, errors with them; on a giant or a massive
+ * main-sequence star, where the two differ by 0.5 dex or more.
+ */
+function massRadiusSwap(kind: 'giant' | 'ms'): Attempt {
+  return (s) => swapMassRadius(s, kind);
+}
+
+function swapMassRadius(s: Star, kind: 'giant' | 'ms'): Entry | null {
   const v = s.v;
-  if (s.kind === 'wd' || s.kind === 'vms' || !(Math.abs(Math.log10(v[C.mass] / v[C.radius])) >= 0.5)) return null;
+  if (s.kind !== kind || !(Math.abs(Math.log10(v[C.mass] / v[C.radius])) >= 0.5)) return null;
   const [m, em, r, er] = [v[C.mass], v[C.eMass], v[C.radius], v[C.eRadius]];
   const changes = [change(C.mass, m, r), change(C.eMass, em, er), change(C.radius, r, m), change(C.eRadius, er, em)];
   v[C.mass] = r;
@@ -772,7 +785,7 @@ const massRadiusSwap: Attempt = (s) => {
   v[C.radius] = m;
   v[C.eRadius] = em;
   return entryOf('mass-radius-swap', changes, [{ rule: 'swapped-columns', severity: 'error' }], [], `mass (${m} M_sun) and radius (${r} R_sun) exchanged, with their errors`);
-};
+}
 
 // --- Values the row's own relations contradict. -------------------------------------------------
 
@@ -866,10 +879,16 @@ const mbolOneMag: Attempt = (s, rng) => {
   return entryOf('mbol-one-mag', changes, [{ rule: 'bolometric-magnitude-mismatch', severity: 'warning' }], [], `M_bol one magnitude ${x > m ? 'too faint' : 'too bright'} (true ${m})`);
 };
 
-/** The distance in kpc, or the parallax (and its error) in arcsec, under the pc and mas headers. */
+/**
+ * The distance in kpc, or the parallax (and its error) in arcsec, under the pc and mas headers.
+ * Parallaxes in arcsec only for stars within 200 pc: parallax-distance-mismatch adds a 0.02 mas
+ * zero-point term to the parallax as written, which for a parallax of 0.0014 "mas" (an arcsec
+ * value at 700 pc) is 1.2 dex and hides the 3 dex of the slip (reported to the lead).
+ */
 function parallaxUnit(kind: 'dist-in-kpc' | 'parallax-in-arcsec'): Attempt {
   return (s) => {
     const v = s.v;
+    if (kind === 'parallax-in-arcsec' && !(v[C.plx] >= 5)) return null;
     const column = kind === 'dist-in-kpc' ? C.dist : C.plx;
     const before = v[column];
     return entryOf(
@@ -1078,7 +1097,7 @@ function attemptFor(kind: PlantKind, j: number): Attempt {
     case 'logg-si':
       return loggSi;
     case 'mass-radius-swap':
-      return massRadiusSwap;
+      return massRadiusSwap(j % 3 === 2 ? 'ms' : 'giant');
     case 'teff-off':
       return teffOff;
     case 'logg-off':
@@ -1260,8 +1279,9 @@ export async function makeSamples(options: MakeOptions = {}): Promise<MakeSummar
       `# ${SURVEY}, data release 1 (${RELEASE}): an invented survey, made for the starsieve demos.`,
       `# Made by sample-catalogs/make-samples.ts --rows ${rows} --seed ${seed}${plant ? '' : ' --no-plant'}.`,
       '# Units: mass M_sun; lum L_sun (IAU 2015 nominal, 3.828e26 W); radius R_sun (nominal); teff K;',
-      '# logg log10(g / cm s^-2); feh dex; parallax mas; dist pc (1000 / parallax); mbol absolute bolometric',
-      '# magnitude on the IAU 2015 B2 scale (4.74 for the Sun). Each e_ column is the 1-sigma error of the column before it.',
+      '# logg log10(g / cm s^-2); feh dex; parallax mas; dist pc (1000 / parallax); mbol mag, the absolute',
+      '# bolometric magnitude on the IAU 2015 B2 scale (4.74 for the Sun).',
+      '# Each e_ column is the 1-sigma error of the column before it.',
       '# stage: MS (main sequence), giant, WD (white dwarf). An empty cell is a missing value.',
       plant ? '# Some rows carry deliberate errors; the matching .truth.json file lists them.' : '# No deliberate errors were planted.',
       COLUMNS.join(','),
@@ -1269,7 +1289,7 @@ export async function makeSamples(options: MakeOptions = {}): Promise<MakeSummar
     writeSync(csvFd, header.join('\n') + '\n');
     writeSync(
       truthFd,
-      `{\n  "survey": ${JSON.stringify(SURVEY)},\n  "release": ${JSON.stringify(RELEASE)},\n  "generator": "sample-catalogs/make-samples.ts",\n  "seed": ${seed},\n  "rows": ${rows},\n  "planted": [`,
+      `{\n  "survey": ${JSON.stringify(SURVEY)},\n  "release": ${JSON.stringify(RELEASE)},\n  "generator": "sample-catalogs/make-samples.ts",\n  "seed": ${seed},\n  "rows": ${rows},\n  "csvOnly": ${JSON.stringify(CSV_ONLY_NOTE)},\n  "planted": [`,
     );
     let firstEntry = true;
     for (let first = 0; first < rows; first += BLOCK_ROWS) {

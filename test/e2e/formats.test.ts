@@ -13,8 +13,16 @@ import { fitsTableFile, parquet, votable } from '../helpers/table-writers.js';
 
 const CSV = join(REPO, 'sample-catalogs/thistlewood-dr1.csv');
 const truth = JSON.parse(readFileSync(join(REPO, 'sample-catalogs/thistlewood-dr1.truth.json'), 'utf8')) as { rows: number };
-/** `line` exists only for text formats and the fingerprint names the input file; the rest must match. */
-const comparable = (r: Report) => r.findings.map((f) => ({ ...f, line: null, fingerprint: null }));
+/**
+ * `line` exists only for text formats and the fingerprint names the input file; rows whose slips
+ * only a CSV can hold (ragged records, text in a number column: `csvOnly` in the truth file) are
+ * left out, since binary formats store those cells as typed nulls. The rest must match.
+ */
+const csvOnlyRows = new Set((truth as unknown as { planted: { row: number; csvOnly?: boolean }[] }).planted.filter((p) => p.csvOnly).map((p) => p.row));
+const comparable = (r: Report) =>
+  r.findings
+    .filter((f) => f.row === null || !csvOnlyRows.has(f.row))
+    .map((f) => ({ ...f, line: null, fingerprint: null, message: f.message.replace(/ \(line \d+\)/g, '') }));
 
 describe('the demo catalog in every format', () => {
   const dir = tempDir();
