@@ -80,7 +80,9 @@ th{background:#f4f4f0}td.n{text-align:right;font-variant-numeric:tabular-nums}
 
 /** The self-contained HTML report: one file, inline CSS and SVG, no script and no network. */
 export function renderHtml(d: HtmlReportData): string {
-  const ruleIds = d.rules.map((r) => r.id);
+  const p0 = d.plot;
+  const plotted = new Set([...p0.mlFlagged, ...p0.hrFlagged].map((f) => f.rule));
+  const ruleIds = d.rules.map((r) => r.id).filter((id) => plotted.has(id));
   const styles = markStyles(ruleIds);
   const ml = d.rules.find((r) => r.id === 'mass-luminosity-outlier')?.reports[0];
   const choice = ((ml?.params.relation as string) ?? 'default') as RelationChoice;
@@ -97,6 +99,25 @@ export function renderHtml(d: HtmlReportData): string {
   parts.push(
     `<p><span class="verdict ${d.failed ? 'fail' : 'pass'}">${d.failed ? 'FAIL' : 'PASS'}</span> <span class="error">${num(totals.error)} error</span>, <span class="warning">${num(totals.warning)} warning</span>, <span class="note">${num(totals.note)} note</span> (fail level: ${esc(d.failOn)})</p>`,
   );
+  parts.push('<h2>Diagrams</h2>');
+  const legend = ruleIds
+    .map((id) => `<span><svg width="14" height="14" viewBox="-7 -7 14 14">${marker(styles.get(id)!, 0, 0, 5)}</svg>${esc(id)}</span>`)
+    .join('');
+  parts.push(
+    `<div class="legend">${legend}<span><svg width="26" height="10"><line x1="0" y1="5" x2="26" y2="5" stroke="#08519c" stroke-width="2"/></svg>mass-luminosity relation (${esc(choice)}) and its ${threshold}-sigma band</span><span><svg width="26" height="10"><line x1="0" y1="5" x2="26" y2="5" stroke="#7f2704" stroke-width="2"/></svg>Eddington limit, X = 0</span><span><svg width="26" height="10"><line x1="0" y1="5" x2="26" y2="5" stroke="#7f2704" stroke-dasharray="6 4"/></svg>X = 0.7</span></div>`,
+  );
+  const dens = p.ml.total > p.mlPoints.length / 2 || p.hr.total > p.hrPoints.length / 2;
+  parts.push(
+    `<p class="meta">Grey: ${dens ? 'density of all stars (binned; darker = more stars, log scale)' : 'every star'}; marks: flagged stars by rule (hover for the star). Stars whose luminosity was set aside as a unit slip are drawn at the suggested value.${p.flaggedNotShown ? ` ${num(p.flaggedNotShown)} flagged stars are not drawn (no mass or Teff, or beyond the ${num(3000)} drawn per diagram).` : ''}</p>`,
+  );
+  parts.push('<div class="plots">');
+  parts.push(
+    svgPlot({ title: 'Mass-luminosity diagram', xLabel: 'log M / M_sun', yLabel: 'log L / L_sun', x: [-1.5, 2.7], y: [-5.5, 7.5], grid: p.ml, points: p.mlPoints, flagged: p.mlFlagged, styles, curves: overlays.curves, bands: overlays.bands }),
+  );
+  parts.push(
+    svgPlot({ title: 'Hertzsprung-Russell diagram', xLabel: 'log Teff / K', yLabel: 'log L / L_sun', x: [3.3, 5.0], y: [-5.5, 7.5], reverseX: true, grid: p.hr, points: p.hrPoints, flagged: p.hrFlagged, styles, curves: radiusLines(), bands: [] }),
+  );
+  parts.push('</div>');
   parts.push('<h2>Inputs</h2>');
   parts.push(
     table(
@@ -122,26 +143,6 @@ export function renderHtml(d: HtmlReportData): string {
       }),
     ),
   );
-  parts.push('<h2>Diagrams</h2>');
-  const legend = ruleIds
-    .filter((id) => (d.counts.get(id)?.error ?? 0) + (d.counts.get(id)?.warning ?? 0) + (d.counts.get(id)?.note ?? 0) > 0)
-    .map((id) => `<span><svg width="14" height="14" viewBox="-7 -7 14 14">${marker(styles.get(id)!, 0, 0, 5)}</svg>${esc(id)}</span>`)
-    .join('');
-  parts.push(
-    `<div class="legend">${legend}<span><svg width="26" height="10"><line x1="0" y1="5" x2="26" y2="5" stroke="#08519c" stroke-width="2"/></svg>mass-luminosity relation (${esc(choice)}) and its ${threshold}-sigma band</span><span><svg width="26" height="10"><line x1="0" y1="5" x2="26" y2="5" stroke="#7f2704" stroke-width="2"/></svg>Eddington limit, X = 0</span><span><svg width="26" height="10"><line x1="0" y1="5" x2="26" y2="5" stroke="#7f2704" stroke-dasharray="6 4"/></svg>X = 0.7</span></div>`,
-  );
-  const dens = p.ml.total > p.mlPoints.length / 2 || p.hr.total > p.hrPoints.length / 2;
-  parts.push(
-    `<p class="meta">Grey: ${dens ? 'density of all stars (binned; darker = more stars, log scale)' : 'every star'}; marks: flagged stars by rule (hover for the star). Stars whose luminosity was set aside as a unit slip are drawn at the suggested value.${p.flaggedNotShown ? ` ${num(p.flaggedNotShown)} flagged stars are not drawn (no mass or Teff, or beyond the ${num(3000)} drawn per diagram).` : ''}</p>`,
-  );
-  parts.push('<div class="plots">');
-  parts.push(
-    svgPlot({ title: 'Mass-luminosity diagram', xLabel: 'log M / M_sun', yLabel: 'log L / L_sun', x: [-1.5, 2.7], y: [-5.5, 7.5], grid: p.ml, points: p.mlPoints, flagged: p.mlFlagged, styles, curves: overlays.curves, bands: overlays.bands }),
-  );
-  parts.push(
-    svgPlot({ title: 'Hertzsprung-Russell diagram', xLabel: 'log Teff / K', yLabel: 'log L / L_sun', x: [3.3, 5.0], y: [-5.5, 7.5], reverseX: true, grid: p.hr, points: p.hrPoints, flagged: p.hrFlagged, styles, curves: radiusLines(), bands: [] }),
-  );
-  parts.push('</div>');
   parts.push('<h2>Column bindings</h2>');
   d.bindings.forEach((b, k) => {
     parts.push(`<p><b>${esc(d.inputs[k]?.path ?? '')}</b></p>`);

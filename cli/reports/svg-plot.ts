@@ -17,8 +17,11 @@ export interface MarkStyle {
   shape: (typeof SHAPES)[number];
 }
 
+/** Styles for the rules in order: colour and shape advance at different strides, so up to 64 rules get distinct pairs. */
 export function markStyles(rules: readonly string[]): Map<string, MarkStyle> {
-  return new Map(rules.map((r, i) => [r, { colour: COLOURS[i % COLOURS.length], shape: SHAPES[i % SHAPES.length] }]));
+  return new Map(
+    rules.map((r, i) => [r, { colour: COLOURS[i % COLOURS.length], shape: SHAPES[(i + 3 * Math.floor(i / SHAPES.length)) % SHAPES.length] }]),
+  );
 }
 
 /** One marker as an SVG element, centred on (x, y). */

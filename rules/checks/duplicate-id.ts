@@ -90,7 +90,7 @@ export const duplicateId: Rule = {
         for (const f of log.notes(ID, input, column, (l) =>
           `${l.repeats} of ${l.rows} rows ${l.repeats === 1 ? 'repeats' : 'repeat'} an id seen on an earlier row (${l.keysRepeated} ${l.keysRepeated === 1 ? 'id is' : 'ids are'} on two or more rows, at most ${l.maxCount} for \`${l.maxKey}\`)${
             listed
-              ? '; each repeated row is listed'
+              ? l.listedText('; each repeated row is listed')
               : ': the table holds several rows per star (one per planet or component?), so the rows are not listed one by one; conflicting-duplicate reports ids whose values disagree'
           }`,
           ids.maxSize,

@@ -110,7 +110,7 @@ export const duplicateRow: Rule = {
         for (const f of log.notes(ID, input, idColumn ?? '', (l) =>
           `${l.repeats} of ${l.rows} rows ${l.repeats === 1 ? 'repeats' : 'repeat'} an earlier row exactly in every bound column (${l.keysRepeated} distinct ${l.keysRepeated === 1 ? 'row occurs' : 'rows occur'} more than once, at most ${l.maxCount} times)${
             listed
-              ? '; each repeat is listed'
+              ? l.listedText('; each repeat is listed')
               : idColumn
                 ? `: the rows share their ${idColumn} as well, so the table most likely holds several rows per star whose stellar columns repeat (one per planet?); they are not listed one by one`
                 : ': they are not listed one by one'

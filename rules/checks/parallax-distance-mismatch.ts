@@ -155,13 +155,21 @@ export const parallaxDistanceMismatch: Rule = {
           const sD = far ? dexBelow(di, errAt(dist.errLo, i)) : dexAbove(di, errAt(dist.errHi, i));
           const sP = far ? dexBelow(pi, eLo) : dexAbove(pi, eHi);
           const sZ = Math.log10(1 + zp / pi);
-          const sigma = Math.sqrt(sD * sD + sP * sP + sZ * sZ + tolDex * tolDex);
+          const sigmaStated = Math.sqrt(sD * sD + sP * sP + tolDex * tolDex);
+          const sigma = Math.sqrt(sigmaStated * sigmaStated + sZ * sZ);
           const allowed = k * sigma;
-          if (Math.abs(q) <= allowed) continue;
+          // A unit slip is judged on the stated errors alone: the Gaia zero point shifts a small
+          // parallax by a few hundredths of a mas, it cannot make an exact factor of 1000 (and it
+          // would swamp a parallax written in arcsec, whose value is tiny).
+          let factor = -1;
+          const slipWindow = Math.min(2 * sigmaStated, FACTOR_WINDOW_MAX);
+          if (Math.abs(q) > k * sigmaStated) {
+            for (let j = 0; j < FACTORS.length; j++) if (Math.abs(q - FACTOR_LOGS[j]) <= slipWindow) factor = j;
+          }
+          if (Math.abs(q) <= allowed && factor < 0) continue;
           flagged++;
           const window = Math.min(2 * sigma, FACTOR_WINDOW_MAX);
-          let factor = -1;
-          for (let j = 0; j < FACTORS.length; j++) if (Math.abs(q - FACTOR_LOGS[j]) <= window) factor = j;
+          if (factor < 0) for (let j = 0; j < FACTORS.length; j++) if (Math.abs(q - FACTOR_LOGS[j]) <= window) factor = j;
           const values = {
             [plx.column]: round6(plx.raw[i]),
             [dist.column]: round6(dist.raw[i]),

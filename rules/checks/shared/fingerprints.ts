@@ -250,6 +250,11 @@ export class RepeatLog {
     if (this.held.length < this.cap) this.held.push(finding());
   }
 
+  /** How the listed rows are described: all of them, or the first `cap` when there were more. */
+  listedText(all: string): string {
+    return this.held.length < this.repeats ? `; the first ${this.held.length} of them are listed` : all;
+  }
+
   /** Whether the repeated rows are listed (repeats are rare) rather than summed up in one note. */
   listed(): boolean {
     return this.repeats <= 10 || this.repeats <= this.listFraction * this.rows;

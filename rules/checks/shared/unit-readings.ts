@@ -306,6 +306,9 @@ export class UnitMixupScreen {
       for (let k = 0; k < readings.length; k++) {
         if (k === this.declaredIndex) continue;
         const lg = readingLog(readings[k], raw);
+        // A reading no star can have is never the explanation, however well it matches an
+        // expectation that another broken cell in the row may have thrown off.
+        if (!(lg >= (readings[k].plausibleMin ?? this.spec.plausibleMin) && lg <= (readings[k].plausibleMax ?? this.spec.plausibleMax))) continue;
         let z = 0;
         for (let j = 0; j < e.n; j++) z = Math.max(z, Math.abs(lg - e.value[j]) / e.sigma[j]);
         if (z < bestZ) {
