@@ -82,13 +82,26 @@ export async function checkCommand(paths: string[], flags: CheckFlags): Promise<
   const isTty = process.stderr.isTTY === true && !flags.quiet;
   let lastProgress = 0;
   const started = Date.now();
-  const progress = (path: string, rows: number) => {
+  let inputStarted = started;
+  let currentPath = '';
+  const progress = (path: string, rows: number, position: { done: number; total: number; unit: 'bytes' | 'rows' } | null) => {
     const now = Date.now();
+    if (path !== currentPath) {
+      currentPath = path;
+      inputStarted = now;
+    }
     if (!isTty || now - lastProgress < 500 || now - started < 1000) return;
     lastProgress = now;
-    const rate = rows / ((now - started) / 1000);
-    process.stderr.write(`\r\x1b[Kstarsieve: ${path}: ${rows.toLocaleString('en-US')} rows, ${Math.round(rate).toLocaleString('en-US')} rows/s`);
+    const secs = (now - inputStarted) / 1000;
+    let tail = '';
+    if (position && position.total > 0 && position.done > 0) {
+      const f = Math.min(1, position.done / position.total);
+      const left = secs * (1 / f - 1);
+      tail = `, ${(100 * f).toFixed(0)}% of the ${position.unit === 'bytes' ? 'file' : 'table'}, about ${left < 90 ? `${Math.ceil(left)} s` : `${Math.ceil(left / 60)} min`} left`;
+    }
+    process.stderr.write(`\r\x1b[Kstarsieve: ${path}: ${rows.toLocaleString('en-US')} rows, ${Math.round(rows / Math.max(secs, 1e-3)).toLocaleString('en-US')} rows/s${tail}`);
   };
+
   const onSignal = (sig: NodeJS.Signals) => {
     abortAll();
     process.stderr.write(`\nstarsieve: interrupted by ${sig}; no report written, any earlier report is left as it was\n`);

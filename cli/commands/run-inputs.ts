@@ -20,8 +20,8 @@ export interface RunInputsOptions {
   table?: number;
   batchSize?: number;
   sink: FindingSink;
-  /** Called now and then with rows read so far, for a progress line. */
-  progress?: (path: string, rows: number) => void;
+  /** Called after each batch with rows read so far and, where the reader knows, how far it has got. */
+  progress?: (path: string, rows: number, position: ReturnType<NonNullable<CatalogReader['progress']>> | null) => void;
   /** Called with each batch after the rules have run over it (plots). */
   observe?: (batch: Batch) => void;
 }
@@ -81,7 +81,7 @@ export async function runInputs(opts: RunInputsOptions): Promise<InputResult[]> 
         run.processBatch(batch);
         opts.observe?.(batch);
         rows += raw.length;
-        opts.progress?.(path, rows);
+        opts.progress?.(path, rows, reader.progress?.() ?? null);
       };
       if (sample) feed(sample);
       for (let r = await it.next(); !r.done; r = await it.next()) feed(r.value);

@@ -8,7 +8,7 @@
  * closes. Rows arrive from papaparse as arrays; they are transposed straight into one string array
  * per column, so everything downstream is columnar.
  */
-import { createReadStream } from 'node:fs';
+import { createReadStream, statSync, type ReadStream } from 'node:fs';
 import type { Readable } from 'node:stream';
 import Papa from 'papaparse';
 import type { ParseError } from 'papaparse';
@@ -75,6 +75,8 @@ class CsvReader implements CatalogReader {
   private readonly comments: boolean;
   private readonly stream: Readable;
   private readonly source: AsyncIterator<string | Buffer>;
+  /** The file's size when the reader reads the file itself (not stdin, not a decompressed stream). */
+  private fileBytes = 0;
   private parser: Papa.Parser | null = null;
   private ncols = 0;
 
@@ -121,8 +123,18 @@ class CsvReader implements CatalogReader {
       // Decoding in the stream keeps multi-byte characters that straddle chunks intact.
       const highWaterMark = Math.max(1, options.readChunkBytes ?? READ_CHUNK_BYTES);
       this.stream = createReadStream(path, { encoding: 'utf8', highWaterMark });
+      try {
+        this.fileBytes = statSync(path).size;
+      } catch {
+        this.fileBytes = 0;
+      }
     }
     this.source = this.stream[Symbol.asyncIterator]();
+  }
+
+  progress(): { done: number; total: number; unit: 'bytes' } | null {
+    if (!this.fileBytes) return null;
+    return { done: (this.stream as ReadStream).bytesRead, total: this.fileBytes, unit: 'bytes' };
   }
 
   /** Reads up to and including the header row, so `columns` is known before any batch. */

@@ -77,6 +77,10 @@ class FitsReader implements CatalogReader, ColumnProjection {
   readonly path: string;
   columns: ColumnMeta[] = [];
   readonly stats: ReaderStats = { records: 0, rows: 0, unparseable: 0 };
+
+  progress(): { done: number; total: number; unit: 'rows' } | null {
+    return this.rowCount > 0 ? { done: this.stats.rows, total: this.rowCount, unit: 'rows' } : null;
+  }
   readonly notes: string[] = [];
   /** The HDU read, for messages and for `starsieve columns`. */
   hdu = -1;

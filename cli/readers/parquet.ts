@@ -80,6 +80,10 @@ class ParquetReader implements CatalogReader, ColumnProjection {
   readonly path: string;
   columns: ColumnMeta[] = [];
   readonly stats: ReaderStats = { records: 0, rows: 0, unparseable: 0 };
+
+  progress(): { done: number; total: number; unit: 'rows' } {
+    return { done: this.stats.rows, total: Number(this.metadata.num_rows), unit: 'rows' };
+  }
   readonly notes: string[] = [];
 
   private readonly batchSize: number;

@@ -62,6 +62,11 @@ export interface CatalogReader {
    * skipped blank lines). Filled at open; a reader may append more while batches() runs.
    */
   readonly notes?: string[];
+  /**
+   * How far the reading has got, for a progress line: bytes of the file or rows of a table whose
+   * size is known. Absent where neither is known (stdin, gzip, Arrow streams).
+   */
+  progress?(): { done: number; total: number; unit: 'bytes' | 'rows' } | null;
   close(): Promise<void>;
 }
 
