@@ -49,7 +49,12 @@ export async function main(argv: string[]): Promise<number> {
     .option('--bind <column=quantity>', 'bind a column to a quantity, e.g. lum=luminosity, e_lum=luminosity.err, flag=none (repeatable)', collect, [])
     .option('--unit <column=unit>', 'read a column in this unit, e.g. lum=W (repeatable)', collect, [])
     .addOption(bindingOption())
-    .addOption(formatOption())
+    .addOption(
+      new Option('--format <format>', 'input format instead of detecting it; `json` instead prints the summary as JSON (same as --print json)').choices([
+        ...(FORMAT_NAMES as string[]),
+        'json',
+      ]),
+    )
     .addOption(hduOption())
     .addOption(tableOption())
     .option('--delimiter <char>', 'CSV delimiter instead of detecting it')
@@ -59,6 +64,11 @@ export async function main(argv: string[]): Promise<number> {
     .option('--quiet', 'print nothing but errors')
     .addOption(new Option('--print <form>', 'form of the summary on stdout').choices(['text', 'json']).default('text'))
     .action(async (files: string[], o) => {
+      // `json` names no input format, so `--format json` can keep the meaning users expect of it.
+      if (o.format === 'json') {
+        o.print = 'json';
+        o.format = undefined;
+      }
       code = await checkCommand(files, { ...o, color: o.color !== false && process.stdout.isTTY === true && !process.env.NO_COLOR });
     });
 

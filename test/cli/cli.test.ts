@@ -97,6 +97,8 @@ describe('command line', () => {
     const j = JSON.parse(r.stdout);
     expect(j.summary.rows).toBe(3000);
     expect(j.rules.map((x: { id: string }) => x.id)).toContain('eddington-limit');
+    const f = cli(['check', 'sample-catalogs/thistlewood-dr1.csv', '--format', 'json', '--fail-on', 'never']);
+    expect(JSON.parse(f.stdout).summary).toEqual(j.summary);
   });
 
   it('lists the rules, as text and as JSON', () => {
