@@ -2,7 +2,7 @@ import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { REFERENCE, SKIP_SHARED, checkWithReport, hasShared, type Report } from '../helpers/cli.js';
 
-// Transcription-slip rules on real catalogs from ../shared/reference-data (each folder's
+// Copying-slip rules on real catalogs from ../shared/reference-data (each folder's
 // PROVENANCE.md gives the source). These tables have no planted slips, so every finding of these
 // rules on them is a false alarm unless a PROVENANCE file names the row.
 const SLIP_RULES = ['swapped-columns', 'gravity-unit-mixup', 'temperature-unit-mixup', 'mass-unit-mixup', 'radius-unit-mixup', 'decimal-shift'];
@@ -17,7 +17,7 @@ function accountingHolds(r: Report) {
   }
 }
 
-describe.skipIf(!hasShared)('transcription-slip rules on real catalogs (../shared/reference-data)', () => {
+describe.skipIf(!hasShared)('copying-slip rules on real catalogs (../shared/reference-data)', () => {
   if (!hasShared) it.skip(SKIP_SHARED, () => {});
 
   it('CARMENES cif03 (2634 M dwarfs, white-dwarf companions, grid logg): no slip findings', () => {
