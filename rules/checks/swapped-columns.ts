@@ -6,6 +6,12 @@ import { starClasses } from '../physics/classify.js';
 import { Cell, Relation, ROW_FIT_PARAMS, ROW_RELATION_REFERENCES, RowInputs, RowRelations, relationNames } from './shared/row-relations.js';
 
 const ID = 'swapped-columns';
+/**
+ * Mass and radius within 0.2 dex (a factor 1.6) of each other are not called swapped: exchanging them moves the
+ * row by less than the scatter of the relations that judge it, so an odd star would be read as a
+ * typing slip (seen on synthetic stars 1 dex off the mass-luminosity relation).
+ */
+const MIN_SWAP_DEX = 0.2;
 
 /** Values no star has as written, and the ranges the swapped values must fall in (canonical units). */
 const TEFF_MAX_AS_LOGG = 100; // a Teff cell below 100 K holds no temperature (coolest Y dwarfs about 250 K)
@@ -114,7 +120,7 @@ export const swappedColumns: Rule = {
           // Only relations that test both cells can tell a swap: gravity, or Stefan-Boltzmann (R) with
           // the mass-luminosity relation (M).
           const bothTested = bits & Relation.Gravity || (bits & Relation.StefanBoltzmann && bits & Relation.MassLuminosity);
-          if (z0 > fire && mass && radius && bothTested && Number.isFinite(rr.lm) && Number.isFinite(rr.lr) && !isUnusable(batch, 'mass', i) && !isUnusable(batch, 'radius', i)) {
+          if (z0 > fire && mass && radius && bothTested && Math.abs(rr.lm - rr.lr) >= MIN_SWAP_DEX && !isUnusable(batch, 'mass', i) && !isUnusable(batch, 'radius', i)) {
             const { lm, lr, sm, sr } = rr;
             rr.lm = lr;
             rr.lr = lm;
