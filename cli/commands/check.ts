@@ -156,7 +156,6 @@ export async function checkCommand(paths: string[], flags: CheckFlags): Promise<
         rules: ruleRows,
         counts: htmlCollector.counts,
         shown: htmlCollector.shown,
-        perRule: htmlRows,
         plot,
         failOn: flags.failOn,
         failed,

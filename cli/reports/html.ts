@@ -5,7 +5,7 @@ import { relationAt, type RelationChoice, type RelationVerdictInput } from '../.
 import { logLuminosityFromRadiusTeff } from '../../rules/physics/stellar.js';
 import type { Binding } from '../binding/types.js';
 import { AtomicFile } from './atomic-file.js';
-import type { PlotData } from './plot-data.js';
+import { MAX_FLAGGED, type PlotData } from './plot-data.js';
 import { esc, markStyles, marker, svgPlot, type Band, type Curve } from './svg-plot.js';
 import type { InputSummary } from './terminal.js';
 
@@ -17,7 +17,6 @@ export interface HtmlReportData {
   rules: { id: string; title: string; severity: Severity; reports: RuleReport[] }[];
   counts: Map<string, Record<Severity, number>>;
   shown: Map<string, Finding[]>;
-  perRule: number;
   plot: PlotData;
   failOn: string;
   failed: boolean;
@@ -80,15 +79,14 @@ th{background:#f4f4f0}td.n{text-align:right;font-variant-numeric:tabular-nums}
 
 /** The self-contained HTML report: one file, inline CSS and SVG, no script and no network. */
 export function renderHtml(d: HtmlReportData): string {
-  const p0 = d.plot;
-  const plotted = new Set([...p0.mlFlagged, ...p0.hrFlagged].map((f) => f.rule));
+  const p = d.plot;
+  const plotted = new Set([...p.mlFlagged, ...p.hrFlagged].map((f) => f.rule));
   const ruleIds = d.rules.map((r) => r.id).filter((id) => plotted.has(id));
   const styles = markStyles(ruleIds);
   const ml = d.rules.find((r) => r.id === 'mass-luminosity-outlier')?.reports[0];
   const choice = ((ml?.params.relation as string) ?? 'default') as RelationChoice;
   const threshold = (ml?.params.threshold as number) ?? 3;
   const overlays = massLuminosityOverlays(choice, threshold);
-  const p = d.plot;
   const totals = { error: 0, warning: 0, note: 0 };
   for (const c of d.counts.values()) for (const s of ['error', 'warning', 'note'] as const) totals[s] += c[s];
   const parts: string[] = [];
@@ -108,7 +106,7 @@ export function renderHtml(d: HtmlReportData): string {
   );
   const dens = p.ml.total > p.mlPoints.length / 2 || p.hr.total > p.hrPoints.length / 2;
   parts.push(
-    `<p class="meta">Grey: ${dens ? 'density of all stars (binned; darker = more stars, log scale)' : 'every star'}; marks: flagged stars by rule (hover for the star). Stars whose luminosity was set aside as a unit slip are drawn at the suggested value.${p.flaggedNotShown ? ` ${num(p.flaggedNotShown)} flagged stars are not drawn (no mass or Teff, or beyond the ${num(3000)} drawn per diagram).` : ''}</p>`,
+    `<p class="meta">Grey: ${dens ? 'density of all stars (binned; darker = more stars, log scale)' : 'every star'}; marks: flagged stars by rule (hover for the star). Stars whose luminosity was set aside as a unit slip are drawn at the suggested value.${p.flaggedNotShown ? ` ${num(p.flaggedNotShown)} flagged stars are not drawn (no mass or Teff, or beyond the ${num(MAX_FLAGGED)} drawn per diagram).` : ''}</p>`,
   );
   parts.push('<div class="plots">');
   parts.push(

@@ -1,4 +1,4 @@
-import { columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
+import { COLUMN_VERDICT_MIN_ROWS, columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
 import { usableValues } from '../engine/usable.js';
 import type { Finding, Rule, Severity } from '../engine/types.js';
 import { MBOL_SUN } from '../physics/constants.js';
@@ -9,8 +9,6 @@ const ID = 'bolometric-magnitude-mismatch';
 const MIN_OFFSET_MAG = 0.005;
 /** A measured offset is put down to a known zero point when within this of it (mag). */
 const ZERO_POINT_MATCH_MAG = 0.0025;
-/** Fewer judged rows than this never make a column verdict. */
-const COLUMN_MIN_ROWS = 10;
 
 /** Solar bolometric magnitudes met in catalogs, against which a column offset is named. */
 export const OLDER_ZERO_POINTS: readonly { mbolSun: number; source: string }[] = [
@@ -91,7 +89,7 @@ export const bolometricMagnitudeMismatch: Rule = {
     const k = ctx.params.sigmas as number;
     const errorMag = ctx.params.errorMag as number;
     const maxOffset = ctx.params.maxOffsetMag as number;
-    const judgeRows = new OffsetJudge(1.25, 2.5e-4, MIN_OFFSET_MAG, maxOffset, COLUMN_MIN_ROWS);
+    const judgeRows = new OffsetJudge(1.25, 2.5e-4, MIN_OFFSET_MAG, maxOffset, COLUMN_VERDICT_MIN_ROWS);
     let input = 0;
     let column = '';
     let flagged = 0;

@@ -1,4 +1,4 @@
-import { columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
+import { COLUMN_VERDICT_MIN_ROWS, columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
 import { usableValues } from '../engine/usable.js';
 import type { Rule } from '../engine/types.js';
 import { DeferredFindings, dexAbove, dexBelow, errAt, overflowNote } from '../physics/consistency.js';
@@ -6,8 +6,6 @@ import { LINEAR_FACTORS } from '../physics/units.js';
 import { distanceFromParallax } from '../physics/stellar.js';
 
 const ID = 'parallax-distance-mismatch';
-/** Fewer judged rows than this never make a column verdict. */
-const COLUMN_MIN_ROWS = 10;
 /** Above this fraction of judged rows explained by one unit factor, the column as a whole is in that unit. */
 const COLUMN_FRACTION = 0.5;
 /** A unit factor is named when log10 of the ratio is within 2 sigma and this many dex of it. */
@@ -221,7 +219,7 @@ export const parallaxDistanceMismatch: Rule = {
         let top = 0;
         for (let j = 1; j < FACTORS.length; j++) if (deferred.count(j) > deferred.count(top)) top = j;
         const topCount = deferred.count(top);
-        if (judged >= COLUMN_MIN_ROWS && topCount / judged > COLUMN_FRACTION) {
+        if (judged >= COLUMN_VERDICT_MIN_ROWS && topCount / judged > COLUMN_FRACTION) {
           columnVerdict = top;
           const fx = FACTORS[top];
           out.push(

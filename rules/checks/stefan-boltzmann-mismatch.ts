@@ -1,4 +1,4 @@
-import { columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
+import { COLUMN_VERDICT_MIN_ROWS, columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
 import { usableValues } from '../engine/usable.js';
 import type { Finding, Rule, Severity } from '../engine/types.js';
 import { L_SUN_W, TEFF_SUN_K } from '../physics/constants.js';
@@ -8,8 +8,6 @@ import { logLuminosityFromRadiusTeff } from '../physics/stellar.js';
 const ID = 'stefan-boltzmann-mismatch';
 /** A column median closer to zero than this (dex) is not worth a note. */
 const MIN_OFFSET_DEX = 0.005;
-/** Fewer judged rows than this never make a column verdict. */
-const COLUMN_MIN_ROWS = 10;
 
 /** The numbers of one judged row that a finding is written from. */
 interface SbRow {
@@ -79,7 +77,7 @@ export const stefanBoltzmannMismatch: Rule = {
     const k = ctx.params.sigmas as number;
     const errorDex = ctx.params.errorDex as number;
     const maxOffset = ctx.params.maxOffsetDex as number;
-    const judgeRows = new OffsetJudge(0.5, 1e-4, MIN_OFFSET_DEX, maxOffset, COLUMN_MIN_ROWS);
+    const judgeRows = new OffsetJudge(0.5, 1e-4, MIN_OFFSET_DEX, maxOffset, COLUMN_VERDICT_MIN_ROWS);
     let input = 0;
     let lumColumn = '';
     let lumUnit = 'solLum';

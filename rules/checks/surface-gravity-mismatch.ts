@@ -1,4 +1,4 @@
-import { columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
+import { COLUMN_VERDICT_MIN_ROWS, columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
 import { usableValues } from '../engine/usable.js';
 import type { Rule } from '../engine/types.js';
 import { DeferredFindings, dexAbove, dexBelow, errAt, overflowNote } from '../physics/consistency.js';
@@ -14,8 +14,6 @@ const SI_WINDOW_MAX = 0.3;
  * then the window is at most 0.3 dex and a loose (model-grid) logg cannot produce it by chance.
  */
 const DECISIVE_SIGMA = 0.15;
-/** Fewer judged rows than this never make a column verdict. */
-const COLUMN_MIN_ROWS = 10;
 /** Above this fraction of judged rows sitting 2 dex off, the column as a whole is in the other unit. */
 const COLUMN_FRACTION = 0.5;
 /** Share of logg values on a 0.25 dex grid above which the column is called grid-quantised. */
@@ -195,7 +193,7 @@ export const surfaceGravityMismatch: Rule = {
         const high = deferred.count(TAG_HIGH);
         const top = low >= high ? TAG_LOW : TAG_HIGH;
         const topCount = Math.max(low, high);
-        if (judged >= COLUMN_MIN_ROWS && topCount / judged > COLUMN_FRACTION) {
+        if (judged >= COLUMN_VERDICT_MIN_ROWS && topCount / judged > COLUMN_FRACTION) {
           columnVerdict = top === TAG_LOW ? 'log(m.s-2)' : 'log(cm.s-2)';
           out.push(
             columnFinding({
@@ -218,7 +216,7 @@ export const surfaceGravityMismatch: Rule = {
           );
         }
         deferred.flush(out, 0, columnVerdict ? top : -1);
-        const gridStep = loggSeen >= COLUMN_MIN_ROWS && onHalfGrid / loggSeen >= GRID_FRACTION ? 0.5 : loggSeen >= COLUMN_MIN_ROWS && onQuarterGrid / loggSeen >= GRID_FRACTION ? 0.25 : 0;
+        const gridStep = loggSeen >= COLUMN_VERDICT_MIN_ROWS && onHalfGrid / loggSeen >= GRID_FRACTION ? 0.5 : loggSeen >= COLUMN_VERDICT_MIN_ROWS && onQuarterGrid / loggSeen >= GRID_FRACTION ? 0.25 : 0;
         if (gridStep > 0 && flagged > 0) {
           const meanErr = statedErrN > 0 ? statedErrSum / statedErrN : NaN;
           out.push(

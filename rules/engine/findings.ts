@@ -35,6 +35,12 @@ export interface ColumnFindingParts extends RowFindingParts {
   input: number;
 }
 
+/**
+ * Fewer judged rows than this never make a column-level verdict (a whole column in another unit,
+ * a constant offset): a short table gets its rows listed instead.
+ */
+export const COLUMN_VERDICT_MIN_ROWS = 10;
+
 /** A finding that speaks for a whole column rather than one row. */
 export function columnFinding(parts: ColumnFindingParts): Finding {
   return {

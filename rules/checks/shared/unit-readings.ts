@@ -4,7 +4,7 @@
  * keeps its own loop over the batch and its own expectations (Stefan-Boltzmann, gravity, a
  * mass-luminosity relation); this module never knows which quantity it judges beyond the spec.
  */
-import { columnFinding, fmt, round6, rowFinding } from '../../engine/findings.js';
+import { COLUMN_VERDICT_MIN_ROWS, columnFinding, fmt, round6, rowFinding } from '../../engine/findings.js';
 import type { NumericQuantity } from '../../engine/quantities.js';
 import { QUANTITY_INFO } from '../../engine/quantities.js';
 import { isUnusable, markUnusable } from '../../engine/usable.js';
@@ -147,8 +147,6 @@ export const MIN_MISS_PARAMS: readonly ParamSpec[] = [
 
 /** Most rows kept for the per-row listing while deciding whether the whole column is affected. */
 const ROW_BUFFER_CAP = 20_000;
-/** Fewer judged rows than this never make a column-level verdict: a short table gets its rows listed. */
-const COLUMN_MIN_ROWS = 10;
 const MAX_BASES = 4;
 
 /** Mean of the lower and upper error of row i, whichever exist; 0 when neither does. */
@@ -403,7 +401,7 @@ export class UnitMixupScreen {
   finish(out: FindingSink): void {
     const { spec, column, input, declaredUnit, fired, judged } = this;
     const { readings } = spec;
-    if (judged >= COLUMN_MIN_ROWS && fired / judged > this.columnFraction) {
+    if (judged >= COLUMN_VERDICT_MIN_ROWS && fired / judged > this.columnFraction) {
       let top = 0;
       for (let k = 1; k < readings.length; k++) if (this.firedByUnit[k] > this.firedByUnit[top]) top = k;
       const unit = readings[top].unit;
