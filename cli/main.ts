@@ -7,6 +7,7 @@ import { compareCommand } from './commands/compare.js';
 import { columnsCommand } from './commands/columns.js';
 import { rulesCommand } from './commands/rules.js';
 import { FAIL_LEVELS } from './options.js';
+import { mergeCommand } from './commands/merge.js';
 import { FORMAT_NAMES } from './readers/open.js';
 import { InputError } from './readers/types.js';
 import { TOOL } from './version.js';
@@ -44,7 +45,8 @@ export async function main(argv: string[]): Promise<number> {
     .option('--rules <ids>', 'run only these rules (comma-separated)')
     .option('--skip <ids>', 'do not run these rules (comma-separated)')
     .option('--param <rule.name=value>', 'set a rule parameter (repeatable)', collect, [])
-    .option('--sigma <n>', 'mass-luminosity-outlier threshold in sigma (default 3)')
+    .option('--sigma <n>', 'mass-luminosity-outlier threshold in sigma (default 3), or auto: chance exceedances below 0.5 for the stars judged')
+    .option('--relation <name>', 'mass-luminosity relation: default, eker2018, classic, tout1996, or catalog (the catalog\'s own fit, two passes)')
     .option('--hydrogen <X>', 'hydrogen mass fraction for eddington-limit (default 0.7)')
     .option('--bind <column=quantity>', 'bind a column to a quantity, e.g. lum=luminosity, e_lum=luminosity.err, flag=none (repeatable)', collect, [])
     .option('--unit <column=unit>', 'read a column in this unit, e.g. lum=W (repeatable)', collect, [])
@@ -59,6 +61,8 @@ export async function main(argv: string[]): Promise<number> {
     .addOption(tableOption())
     .option('--delimiter <char>', 'CSV delimiter instead of detecting it')
     .option('--batch-size <rows>', 'rows per batch')
+    .option('--jobs <n>', 'threads to check with (default: one per core; inputs under 8 MB in all use one)')
+    .option('--shard <K/N>', 'check only part K of N of the inputs (every N-th, from the K-th); combine the reports with `starsieve merge`')
     .option('--show <n>', 'findings shown per rule in the terminal', '3')
     .option('--no-color', 'no colour even on a terminal')
     .option('--quiet', 'print nothing but errors')
@@ -98,6 +102,20 @@ export async function main(argv: string[]): Promise<number> {
     .option('--rules <ids>', 'only findings of these rules (comma-separated)')
     .action((report: string, o) => {
       code = acceptCommand(report, o);
+    });
+
+  program
+    .command('merge')
+    .description('combine the reports of a sharded run (check --shard K/N) into the report of the whole run')
+    .argument('<reports...>', 'the shard reports, one per shard, in any order')
+    .requiredOption('--report <path>', 'write the merged JSON report here (atomically)')
+    .option('--sarif <path>', 'also write SARIF 2.1.0 for the whole run')
+    .addOption(new Option('--fail-on <level>', 'exit 1 when a finding is at or above this severity (default: what the shards used)').choices(FAIL_LEVELS as string[]))
+    .option('--show <n>', 'findings shown per rule in the terminal', '3')
+    .option('--no-color', 'no colour even on a terminal')
+    .option('--quiet', 'print nothing but errors')
+    .action(async (reports: string[], o) => {
+      code = await mergeCommand(reports, { ...o, color: o.color && process.stdout.isTTY === true && !process.env.NO_COLOR });
     });
 
   program

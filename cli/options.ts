@@ -29,6 +29,7 @@ export interface SelectionFlags {
   param: string[];
   sigma?: string;
   hydrogen?: string;
+  relation?: string;
 }
 
 /** Rule selection and parameters from the command line; the shortcut flags map to rule parameters. */
@@ -40,7 +41,13 @@ export function selectionFrom(flags: SelectionFlags): RuleSelection {
     if (dot <= 0) throw new ConfigError(`--param needs RULE.NAME=VALUE, got "${key}=${value}"`);
     set(key.slice(0, dot), key.slice(dot + 1), value);
   }
-  if (flags.sigma !== undefined) set('mass-luminosity-outlier', 'threshold', flags.sigma);
+  // `--sigma auto` lets the number of stars judged set the threshold (the rule's thresholdMode);
+  // a number sets the fixed threshold.
+  if (flags.sigma !== undefined) {
+    if (flags.sigma.trim().toLowerCase() === 'auto') set('mass-luminosity-outlier', 'thresholdMode', 'auto');
+    else set('mass-luminosity-outlier', 'threshold', flags.sigma);
+  }
+  if (flags.relation !== undefined) set('mass-luminosity-outlier', 'relation', flags.relation);
   if (flags.hydrogen !== undefined) set('eddington-limit', 'hydrogenFraction', flags.hydrogen);
   return { only: list(flags.rules), skip: list(flags.skip), params };
 }

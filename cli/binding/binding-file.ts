@@ -60,6 +60,13 @@ export function parseBindingFile(text: string, path: string): FileBindOptions {
     if (err instanceof YamlProblem) fail(`the binding file is ${err.message}`, err.position);
     throw err;
   }
+  // Tags the YAML schema does not know (`!!js/function`, `!custom`) would otherwise be read as
+  // plain strings; say plainly that a binding file holds data only, and nothing is ever run.
+  const tag = doc.doc.warnings.find((w) => w.code === 'TAG_RESOLVE_FAILED');
+  if (tag) {
+    const name = /Unresolved tag: (\S+)/.exec(tag.message)?.[1]?.replace(/^tag:yaml\.org,2002:/, '!!') ?? 'a tag';
+    fail(`the tag ${name} is not accepted: a binding file holds plain data (strings and mappings), and nothing in it is ever run`, doc.at(tag.pos[0]));
+  }
   const top = doc.value as Record<string, unknown> | null;
   if (top === null || typeof top !== 'object' || Array.isArray(top)) {
     return fail('a binding file is a mapping with a `columns` key (see README.md, "Binding file")', doc.where([]));

@@ -44,6 +44,11 @@ function planOf(binding: Binding): Plan {
   return p;
 }
 
+/** The input-wide decimal-comma decision for a column, or null to decide per batch. */
+function commaOf(binding: Binding, columnIndex: number): boolean | null {
+  return binding.decimalCommas ? binding.decimalCommas.includes(columnIndex) : null;
+}
+
 function absInPlace(a: Float64Array): void {
   for (let i = 0; i < a.length; i++) if (a[i] < 0) a[i] = -a[i];
 }
@@ -69,7 +74,7 @@ export function toBatch(raw: RawBatch, binding: Binding, input: number): Batch {
   for (const p of plan.numeric) {
     const col = raw.columns[p.binding.columnIndex];
     const rawValues = new Float64Array(n);
-    if (col) readNumbers(col, p.binding.column, rawValues, problems);
+    if (col) readNumbers(col, p.binding.column, rawValues, problems, commaOf(binding, p.binding.columnIndex));
     else rawValues.fill(NaN);
     const value = new Float64Array(n);
     const isLum = p.quantity === 'luminosity';
@@ -85,7 +90,7 @@ export function toBatch(raw: RawBatch, binding: Binding, input: number): Batch {
     for (const e of p.errors) {
       const ecol = raw.columns[e.binding.columnIndex];
       const a = new Float64Array(n);
-      if (ecol) readNumbers(ecol, e.binding.column, a, problems);
+      if (ecol) readNumbers(ecol, e.binding.column, a, problems, commaOf(binding, e.binding.columnIndex));
       else a.fill(NaN);
       // The cells as written, signs included, for the rules that judge the uncertainties themselves.
       errRaw ??= { lo: null, hi: null, loColumn: null, hiColumn: null, symmetric: e.binding.role === 'sym', loStoredNegative: false };
@@ -129,7 +134,8 @@ export function toBatch(raw: RawBatch, binding: Binding, input: number): Batch {
       kind: 'malformed',
       column: null,
       text: '',
-      message: m.index < 0 && m.line !== null ? `line ${m.line}: ${m.message}` : m.message,
+      message: m.index < 0 && m.line !== null && !m.message.startsWith(`line ${m.line}:`) ? `line ${m.line}: ${m.message}` : m.message,
+      line: m.line,
     });
   }
   problems.sort((a, b) => a.index - b.index);

@@ -40,6 +40,11 @@ export interface Binding {
   columns: ColumnBinding[];
   /** Notes for the report: units inferred from values, columns passed over and why. */
   notes: string[];
+  /**
+   * Indices of the columns whose sample writes decimal commas (`1,5`), decided once for the input
+   * so that `1,500` reads the same in every batch; absent: decided per batch.
+   */
+  decimalCommas?: number[];
 }
 
 /** A configuration problem: unknown unit, ambiguous binding. Reported in one line, exit code 2. */

@@ -11,7 +11,43 @@ import { PlotData } from '../reports/plot-data.js';
 import { SarifWriter } from '../reports/sarif.js';
 import { TerminalCollector, renderTerminal } from '../reports/terminal.js';
 import { TOOL } from '../version.js';
-import { runInputs } from './run-inputs.js';
+import { ConfigError } from '../../rules/engine/params.js';
+import { defaultJobs, runInputs } from './run-inputs.js';
+
+/** What the run cost: wall time, throughput and the peak memory of the process (all its threads). */
+export function runCost(started: number, rows: number, jobs: number) {
+  const wallSeconds = (Date.now() - started) / 1000;
+  return {
+    wallSeconds: Math.round(wallSeconds * 1000) / 1000,
+    rowsPerSecond: Math.round(rows / Math.max(wallSeconds, 1e-3)),
+    peakRssMb: Math.round(process.resourceUsage().maxRSS / 1024),
+    jobs,
+  };
+}
+
+/** `--shard K/N`: the K-th of N parts (1-based). */
+export function shardFrom(value: string | undefined): { index: number; count: number } | null {
+  if (value === undefined) return null;
+  const m = /^\s*(\d+)\s*\/\s*(\d+)\s*$/.exec(value);
+  const k = m ? Number(m[1]) : NaN;
+  const n = m ? Number(m[2]) : NaN;
+  if (!m || n < 1 || k < 1 || k > n) throw new ConfigError(`--shard needs K/N with 1 <= K <= N (the task id and the number of tasks), got "${value}"`);
+  return { index: k, count: n };
+}
+
+/** The inputs shard K of N checks: every N-th, starting at the K-th, so the split needs no sizes and is the same everywhere. */
+export function shardInputs(count: number, shard: { index: number; count: number } | null): number[] {
+  const all = [...Array(count).keys()];
+  return shard ? all.filter((i) => i % shard.count === shard.index - 1) : all;
+}
+
+/** `--jobs N`: a whole number of threads, at least 1; one per core by default. */
+function jobsFrom(value: string | undefined): number {
+  if (value === undefined) return defaultJobs();
+  const n = Number(value);
+  if (!Number.isInteger(n) || n < 1) throw new ConfigError(`--jobs needs a whole number of threads, 1 or more, got "${value}"`);
+  return n;
+}
 
 export interface CheckFlags extends SelectionFlags {
   report?: string;
@@ -28,6 +64,8 @@ export interface CheckFlags extends SelectionFlags {
   hdu?: number;
   table?: number;
   batchSize?: string;
+  jobs?: string;
+  shard?: string;
   show: string;
   color: boolean;
   quiet?: boolean;
@@ -109,9 +147,12 @@ export async function checkCommand(paths: string[], flags: CheckFlags): Promise<
   };
   process.once('SIGINT', onSignal);
   process.once('SIGTERM', onSignal);
+  const shard = shardFrom(flags.shard);
+  const mine = shardInputs(paths.length, shard);
   try {
     const results = await runInputs({
-      paths,
+      paths: mine.map((i) => paths[i]),
+      inputs: mine,
       rules,
       selection,
       bind,
@@ -120,6 +161,7 @@ export async function checkCommand(paths: string[], flags: CheckFlags): Promise<
       hdu: flags.hdu,
       table: flags.table,
       batchSize: flags.batchSize ? Number(flags.batchSize) : undefined,
+      jobs: jobsFrom(flags.jobs),
       sink: dispatch,
       progress,
       observe: plot ? (b) => plot.observe(b) : undefined,
@@ -138,12 +180,14 @@ export async function checkCommand(paths: string[], flags: CheckFlags): Promise<
       failOn: flags.failOn,
       failed,
       accepted: { matched: accepted.accepted, stale },
+      cost: runCost(started, results.reduce((a, r) => a + r.summary.rows, 0), jobsFrom(flags.jobs)),
     };
     writer?.commit({
       inputs: results.map((r) => r.summary),
-      bindings: results.map((r, i) => ({ input: i, columns: r.binding.columns, notes: r.binding.notes })),
-      rules: ruleRows.map((r) => ({ id: r.id, title: r.title, severity: r.severity, perInput: r.reports.map((x, i) => ({ input: i, ...x })) })),
+      bindings: results.map((r) => ({ input: r.summary.index, columns: r.binding.columns, notes: r.binding.notes })),
+      rules: ruleRows.map((r) => ({ id: r.id, title: r.title, severity: r.severity, perInput: r.reports.map((x, i) => ({ input: results[i].summary.index, ...x })) })),
       summary,
+      shard: shard ? { ...shard, paths } : undefined,
     });
     sarif?.commit();
     if (flags.html && plot && htmlCollector) {

@@ -1,6 +1,7 @@
 import { readFileSync, writeFileSync } from 'node:fs';
 import { ALL_RULES } from '../../rules/checks/index.js';
 import { rulesMarkdown, rulesText, withRuleReference } from '../reports/rule-docs.js';
+import { PROJECT_ROOT } from '../version.js';
 
 export interface RulesFlags {
   json?: boolean;
@@ -12,7 +13,7 @@ export interface RulesFlags {
 /** `starsieve rules`: the rule catalogue from the rules' own metadata. */
 export function rulesCommand(flags: RulesFlags): number {
   if (flags.writeReadme) {
-    const path = new URL('../../README.md', import.meta.url);
+    const path = new URL('README.md', PROJECT_ROOT);
     writeFileSync(path, withRuleReference(readFileSync(path, 'utf8'), ALL_RULES));
     process.stdout.write('README.md rule reference updated\n');
     return 0;

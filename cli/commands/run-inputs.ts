@@ -1,29 +1,39 @@
-import type { Quantity } from '../../rules/engine/quantities.js';
+import { availableParallelism } from 'node:os';
+import { statSync } from 'node:fs';
 import { InputRun, type RuleReport, type RuleSelection } from '../../rules/engine/runner.js';
-import type { Batch, Finding, FindingSink, Rule } from '../../rules/engine/types.js';
-import { bindColumns, toBatch } from '../binding/bind.js';
+import type { Batch, Finding, FindingSink, PrepassState, Rule } from '../../rules/engine/types.js';
+import { toBatch } from '../binding/bind.js';
 import type { Binding, BindOptions } from '../binding/types.js';
-import { openCatalog } from '../readers/open.js';
-import { canSelectColumns } from '../readers/projection.js';
-import type { CatalogReader, RawBatch } from '../readers/types.js';
+import { runPipelined, runWhole } from '../parallel/threads.js';
+import type { Position, ReaderSettings } from '../parallel/protocol.js';
+import type { RawBatch } from '../readers/types.js';
 import type { InputSummary } from '../reports/terminal.js';
+import { FILE_SPILL } from '../spill/file-spill.js';
+import { bindFromFirstBatch, boundMap, inputSummary, openInput } from './input-steps.js';
+import { runPrepass } from './prepass.js';
 
-export interface RunInputsOptions {
+export interface RunInputsOptions extends ReaderSettings {
   paths: readonly string[];
   rules: readonly Rule[];
   selection: RuleSelection;
   bind: BindOptions;
-  format?: string;
-  delimiter?: string;
-  /** FITS: the HDU to read; VOTable: the TABLE (1-based). */
-  hdu?: number;
-  table?: number;
-  batchSize?: number;
   sink: FindingSink;
   /** Called after each batch with rows read so far and, where the reader knows, how far it has got. */
-  progress?: (path: string, rows: number, position: ReturnType<NonNullable<CatalogReader['progress']>> | null) => void;
+  progress?: (path: string, rows: number, position: Position) => void;
   /** Called with each batch after the rules have run over it (plots). */
   observe?: (batch: Batch) => void;
+  /**
+   * Threads to use; 1 runs everything here. With more, several inputs are checked at once, or
+   * one large input is read and screened in one thread while the other judges. Default 1.
+   */
+  jobs?: number;
+  /**
+   * The input number of each path, when these paths are a part of a larger run (a shard); findings
+   * and summaries carry it. Default: the position in `paths`.
+   */
+  inputs?: readonly number[];
+  /** Inputs smaller than this in all stay in one thread (default THREAD_MIN_BYTES); tests lower it. */
+  threadMinBytes?: number;
 }
 
 export interface InputResult {
@@ -32,8 +42,16 @@ export interface InputResult {
   rules: RuleReport[];
 }
 
+/** Below this much input, starting a thread costs more than it saves. */
+export const THREAD_MIN_BYTES = 8 << 20;
+
+/** The input number of the path at `pos`. */
+export function inputNumber(opts: RunInputsOptions, pos: number): number {
+  return opts.inputs?.[pos] ?? pos;
+}
+
 /** Counts distinct rows with findings per input; memory grows with findings, not with rows. */
-class RowTally implements FindingSink {
+export class RowTally implements FindingSink {
   readonly rows = new Set<number>();
   constructor(private readonly next: FindingSink) {}
   push(f: Finding): void {
@@ -42,69 +60,68 @@ class RowTally implements FindingSink {
   }
 }
 
-async function bindFromFirstBatch(reader: CatalogReader, opts: RunInputsOptions) {
-  const it = reader.batches()[Symbol.asyncIterator]();
-  const first = await it.next();
-  const sample: RawBatch | null = first.done ? null : first.value;
-  const binding = bindColumns(reader.columns, sample, opts.bind);
-  // Readers that decode column by column (Parquet, FITS) may now skip what no rule reads.
-  if (canSelectColumns(reader)) reader.selectColumns(boundColumns(binding));
-  return { it, sample, binding };
+/** The number of threads `--jobs` means when it is not given: one per core. */
+export function defaultJobs(): number {
+  return Math.max(1, availableParallelism());
 }
 
-/** Indices of every column the binding reads: values and their uncertainties. */
-export function boundColumns(binding: Binding): number[] {
-  return binding.columns.flatMap((b) => [b.columnIndex, ...b.errors.map((e) => e.columnIndex)]);
-}
-
-/** Reads each input in turn, binds its columns, and streams its batches through the rules. */
-export async function runInputs(opts: RunInputsOptions): Promise<InputResult[]> {
-  const results: InputResult[] = [];
-  for (let index = 0; index < opts.paths.length; index++) {
-    const path = opts.paths[index];
-    const reader = await openCatalog(path, {
-      format: opts.format,
-      delimiter: opts.delimiter,
-      batchSize: opts.batchSize,
-      hdu: opts.hdu,
-      table: opts.table,
-    });
-    try {
-      const { it, sample, binding } = await bindFromFirstBatch(reader, opts);
-      const bound = new Map<Quantity, { column: string; unit: string }>();
-      for (const b of binding.columns) bound.set(b.quantity, { column: b.column, unit: b.unit });
-      const tally = new RowTally(opts.sink);
-      const run = new InputRun(opts.rules, opts.selection, bound, tally);
-      let rows = 0;
-      const feed = (raw: RawBatch) => {
-        const batch = toBatch(raw, binding, index);
-        run.processBatch(batch);
-        opts.observe?.(batch);
-        rows += raw.length;
-        opts.progress?.(path, rows, reader.progress?.() ?? null);
-      };
-      if (sample) feed(sample);
-      for (let r = await it.next(); !r.done; r = await it.next()) feed(r.value);
-      const ruleReports = run.finish();
-      const stats = reader.stats;
-      results.push({
-        binding,
-        rules: ruleReports,
-        summary: {
-          index,
-          path,
-          format: reader.format,
-          records: stats.records,
-          rows: stats.rows,
-          unparseableRecords: stats.unparseable,
-          rowsWithFindings: tally.rows.size,
-          bound: binding.columns.map((b) => ({ quantity: b.quantity, column: b.column, unit: b.unit })),
-          notes: [...(reader.notes ?? []), ...binding.notes],
-        },
-      });
-    } finally {
-      await reader.close();
-    }
+function sizeOf(path: string): number {
+  if (path === '-') return 0;
+  try {
+    return statSync(path).size;
+  } catch {
+    return 0;
   }
+}
+
+/**
+ * Reads each input, binds its columns, and streams its batches through the rules; findings reach
+ * the sink in input order and row order however many threads do the work.
+ */
+export async function runInputs(opts: RunInputsOptions): Promise<InputResult[]> {
+  // First pass, only for rules whose parameters ask for one (--relation catalog); threads not yet.
+  const prepass = await runPrepass(opts);
+  const jobs = prepass ? 1 : Math.max(1, Math.floor(opts.jobs ?? 1));
+  const files = opts.paths.filter((p) => p !== '-');
+  const bytes = files.reduce((a, p) => a + sizeOf(p), 0);
+  if (jobs > 1 && files.length === opts.paths.length && bytes >= (opts.threadMinBytes ?? THREAD_MIN_BYTES)) {
+    // Several inputs: one per thread. Plots need every batch here, so they take the other way.
+    if (opts.paths.length > 1 && !opts.observe) return runWhole(opts, jobs);
+    const results: InputResult[] = [];
+    for (let index = 0; index < opts.paths.length; index++) results.push(await runPipelined(index, opts));
+    return results;
+  }
+  const results: InputResult[] = [];
+  for (let index = 0; index < opts.paths.length; index++) results.push(await runOne(index, opts, prepass));
   return results;
+}
+
+/** One input, all in this thread. */
+async function runOne(pos: number, opts: RunInputsOptions, prepass?: Map<string, PrepassState>): Promise<InputResult> {
+  const path = opts.paths[pos];
+  const index = inputNumber(opts, pos);
+  const reader = await openInput(path, opts);
+  try {
+    const { it, ahead, binding } = await bindFromFirstBatch(reader, opts.bind);
+    const tally = new RowTally(opts.sink);
+    const run = new InputRun(opts.rules, opts.selection, boundMap(binding), tally, undefined, prepass, FILE_SPILL);
+    let rows = 0;
+    const feed = (raw: RawBatch) => {
+      const batch = toBatch(raw, binding, index);
+      run.processBatch(batch);
+      opts.observe?.(batch);
+      rows += raw.length;
+      opts.progress?.(path, rows, reader.progress?.() ?? null);
+    };
+    for (const raw of ahead) feed(raw);
+    for (let r = await it.next(); !r.done; r = await it.next()) feed(r.value);
+    const ruleReports = run.finish();
+    return {
+      binding,
+      rules: ruleReports,
+      summary: inputSummary(index, path, reader.format, reader.stats, reader.notes ?? [], binding, tally.rows.size),
+    };
+  } finally {
+    await reader.close();
+  }
 }

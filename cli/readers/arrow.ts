@@ -54,12 +54,13 @@ export async function openArrow(path: string, options: ReaderOptions = {}): Prom
       const tail = size >= 14 ? await readAt(handle, size - 6, 6) : Buffer.alloc(0);
       if (tail.toString('latin1') !== FILE_MAGIC) {
         throw new InputError(
-          `${name}: truncated or damaged Arrow IPC file: it starts with ARROW1 but does not end with it, so its footer is missing`,
+          `${name}: truncated or damaged Arrow IPC file: it starts with ARROW1 but does not end with it, so its footer is missing (the file ends at byte ${size})`,
           path,
+          `byte ${size}`,
         );
       }
     } else if (size === 0) {
-      throw new InputError(`${name}: the file is empty, so it holds no Arrow data`, path);
+      throw new InputError(`${name}: the file is empty, so it holds no Arrow data`, path, 'byte 0');
     }
   } catch (err) {
     await handle.close().catch(() => undefined);

@@ -7,18 +7,23 @@
  * not a line), cap how much text one broken record may hold, and recover after a quote that never
  * closes. Rows arrive from papaparse as arrays; they are transposed straight into one string array
  * per column, so everything downstream is columnar.
+ *
+ * Once the binder has said which columns the rules read (`selectColumns`), text without quotes
+ * takes the fast path of csv-fast.ts instead: lines split with indexOf, numbers read straight into
+ * Float64Arrays, unread columns skipped. Text with quotes still goes to papaparse, and both paths
+ * give identical batches (a property test compares them).
  */
-import { createReadStream, statSync, type ReadStream } from 'node:fs';
+import { statSync, type ReadStream } from 'node:fs';
 import type { Readable } from 'node:stream';
 import Papa from 'papaparse';
 import type { ParseError } from 'papaparse';
 import { batchSizeOf, describeIoError, displayName, uniqueColumnNames } from './common.js';
-import { opened } from './source.js';
+import { BatchBuilder, CellMode, scannable } from './csv-fast.js';
+import { opened, utf8FileStream } from './source.js';
 import {
   InputError,
   type CatalogReader,
   type ColumnMeta,
-  type MalformedRecord,
   type RawBatch,
   type ReaderOptions,
   type ReaderStats,
@@ -94,11 +99,9 @@ class CsvReader implements CatalogReader {
   private started = false;
   private closed = false;
 
-  private cols: (string | null)[][] = [];
-  private lines: Int32Array = new Int32Array(0);
-  private n = 0;
-  private malformed: MalformedRecord[] = [];
+  private builder!: BatchBuilder;
   private ready: RawBatch[] = [];
+  private delimiter = ',';
 
   private blankLines = 0;
   private firstBlankLine = 0;
@@ -122,7 +125,8 @@ class CsvReader implements CatalogReader {
     } else {
       // Decoding in the stream keeps multi-byte characters that straddle chunks intact.
       const highWaterMark = Math.max(1, options.readChunkBytes ?? READ_CHUNK_BYTES);
-      this.stream = createReadStream(path, { encoding: 'utf8', highWaterMark });
+      // Bytes that are not UTF-8 still decode (as U+FFFD), but the first is reported as a note.
+      this.stream = utf8FileStream(path, highWaterMark, (m) => this.notes.push(m));
       try {
         this.fileBytes = statSync(path).size;
       } catch {
@@ -154,6 +158,7 @@ class CsvReader implements CatalogReader {
     const hooked = this.options.onPreamble?.(this.preamble, headerLine);
     this.preamble = [];
     const delimiter = explicit ?? hooked?.delimiter ?? detectDelimiter(headerLine);
+    this.delimiter = delimiter;
     this.format = delimiter === '\t' ? 'tsv' : 'csv';
     this.parser = new Papa.Parser({
       delimiter,
@@ -199,7 +204,19 @@ class CsvReader implements CatalogReader {
     this.notes.push(...notes);
     this.columns = names.map((name) => ({ name, unit: null, ucd: null, description: null, type: 'text' }));
     this.ncols = names.length;
-    this.startBatch();
+    this.builder = new BatchBuilder(this.ncols, this.batchSize, this.stats, this.ready);
+  }
+
+  /**
+   * From now on only these columns are read: those in `textIndices` as strings, the others as
+   * numbers, straight from the text where a line has no quotes. Until this is called every column
+   * is text.
+   */
+  selectColumns(indices: readonly number[], textIndices: readonly number[] = []): void {
+    const modes = new Uint8Array(this.ncols);
+    for (const i of indices) if (i >= 0 && i < this.ncols) modes[i] = CellMode.Number;
+    for (const i of textIndices) if (i >= 0 && i < this.ncols) modes[i] = CellMode.Text;
+    this.builder.setModes(modes);
   }
 
   async *batches(): AsyncGenerator<RawBatch> {
@@ -212,10 +229,8 @@ class CsvReader implements CatalogReader {
         if (this.eof) break;
         await this.readMore();
       }
-      if (this.n > 0 || this.malformed.length > 0) {
-        this.finishBatch();
-        yield this.ready.shift()!;
-      }
+      this.builder.flush();
+      while (this.ready.length > 0) yield this.ready.shift()!;
       if (this.blankLines > 0) {
         this.notes.push(
           `${this.blankLines} blank line${this.blankLines === 1 ? '' : 's'} inside the data ` +
@@ -336,6 +351,10 @@ class CsvReader implements CatalogReader {
         this.nextParseAt = 0;
         return;
       }
+      if (this.builder.scanning && scannable(buf)) {
+        if (this.consumeFast(final)) continue;
+        return;
+      }
       const res = parser.parse(buf, 0, !final);
       const data = res.data as string[][];
       let usable = data.length;
@@ -369,22 +388,46 @@ class CsvReader implements CatalogReader {
       this.line = at.line + (consumed > at.pos ? countNewlines(buf, at.pos, consumed) : 0);
       this.buf = consumed >= buf.length ? '' : buf.slice(consumed);
 
-      if (!final && this.buf.length > this.maxRecordChars) {
-        // One record has grown past the cap with no end: treat it like an unclosed quote.
-        this.dropLeadingComments(false);
-        // An endless comment line is still only a comment: drop it without calling it a record.
-        if (!(this.comments && this.buf.charCodeAt(0) === HASH)) {
-          this.brokenRecord(
-            this.line,
-            `line ${this.line}: the record starting here runs past ${this.maxRecordChars} characters without ending (a quote that is never closed?); the line was skipped and reading resumed on the next line`,
-          );
-        }
-        this.skipFirstLine();
-        continue;
-      }
+      if (this.overlong(final)) continue;
       this.nextParseAt = Math.min(this.buf.length * 2, this.maxRecordChars + 1);
       return;
     }
+  }
+
+  /**
+   * The fast path over a buffer without quotes: every complete line (all of them when `final`).
+   * True when the caller should go round again (an over-long line was dropped).
+   */
+  private consumeFast(final: boolean): boolean {
+    const buf = this.buf;
+    const end = final ? buf.length : buf.lastIndexOf('\n') + 1;
+    if (end > 0) {
+      this.line += this.builder.scanLines(buf, 0, end, this.line, this.delimiter, this.comments, (line) => this.blank(line));
+      this.buf = end >= buf.length ? '' : buf.slice(end);
+    }
+    if (this.overlong(final)) return true;
+    this.nextParseAt = Math.min(Math.max(this.buf.length * 2, 1), this.maxRecordChars + 1);
+    return false;
+  }
+
+  /** One record has grown past the cap with no end: treat it like an unclosed quote. */
+  private overlong(final: boolean): boolean {
+    if (final || this.buf.length <= this.maxRecordChars) return false;
+    this.dropLeadingComments(false);
+    // An endless comment line is still only a comment: drop it without calling it a record.
+    if (!(this.comments && this.buf.charCodeAt(0) === HASH)) {
+      this.brokenRecord(
+        this.line,
+        `line ${this.line}: the record starting here runs past ${this.maxRecordChars} characters without ending (a quote that is never closed?); the line was skipped and reading resumed on the next line`,
+      );
+    }
+    this.skipFirstLine();
+    return true;
+  }
+
+  private blank(line: number): void {
+    if (this.blankLines === 0) this.firstBlankLine = line;
+    this.blankLines++;
   }
 
   /**
@@ -442,57 +485,19 @@ class CsvReader implements CatalogReader {
   }
 
   private takeRow(row: string[], line: number, phantom: boolean, badQuotes: boolean): void {
-    const width = row.length;
-    if (width === 1) {
+    if (row.length === 1) {
       const only = row[0];
       if (only === '' || (only.charCodeAt(0) <= 32 && only.trim() === '')) {
-        if (!phantom) {
-          if (this.blankLines === 0) this.firstBlankLine = line;
-          this.blankLines++;
-        }
+        if (!phantom) this.blank(line);
         return;
       }
     }
-    this.stats.records++;
-    const index = this.n;
-    const ncols = this.ncols;
-    const cols = this.cols;
-    if (width === ncols) {
-      for (let c = 0; c < ncols; c++) cols[c].push(row[c]);
-    } else if (width < ncols) {
-      for (let c = 0; c < width; c++) cols[c].push(row[c]);
-      for (let c = width; c < ncols; c++) cols[c].push(null);
-      this.malformed.push({
-        index,
-        line,
-        message: `line ${line}: ${width} field${width === 1 ? '' : 's'}, header has ${ncols}; the missing ${ncols - width} are empty`,
-      });
-    } else {
-      for (let c = 0; c < ncols; c++) cols[c].push(row[c]);
-      this.malformed.push({
-        index,
-        line,
-        message: `line ${line}: ${width} fields, header has ${ncols}; the extra ${width - ncols} were dropped`,
-      });
-    }
-    if (badQuotes) {
-      this.malformed.push({
-        index,
-        line,
-        message: `line ${line}: a quoted field has text after its closing quote; the field was read up to the next closing quote`,
-      });
-    }
-    this.lines[index] = line;
-    this.n = index + 1;
-    this.stats.rows++;
-    if (this.n === this.batchSize) this.finishBatch();
+    this.builder.addFields(row, line, badQuotes);
   }
 
   /** A record that yields no row: counted, reported, and its place in the batch is -1. */
   private brokenRecord(line: number, message: string): void {
-    this.stats.records++;
-    this.stats.unparseable++;
-    this.malformed.push({ index: -1, line, message });
+    this.builder.broken(line, message);
   }
 
   /** Drops the buffer's first physical line; if its end has not arrived yet, discards up to it. */
@@ -523,27 +528,6 @@ class CsvReader implements CatalogReader {
     if (pos > 0) this.buf = buf.slice(pos);
   }
 
-  // ---- batches -----------------------------------------------------------------------------
-
-  private startBatch(): void {
-    this.cols = [];
-    for (let c = 0; c < this.ncols; c++) this.cols.push([]);
-    this.lines = new Int32Array(this.batchSize);
-    this.n = 0;
-    this.malformed = [];
-  }
-
-  private finishBatch(): void {
-    const n = this.n;
-    this.ready.push({
-      length: n,
-      firstRow: this.stats.rows - n + 1,
-      lines: this.lines.subarray(0, n),
-      columns: this.cols.map((values) => ({ kind: 'text', values })),
-      malformed: this.malformed,
-    });
-    this.startBatch();
-  }
 }
 
 /** The delimiter option as given, with the spellings a shell user is likely to type for a tab. */

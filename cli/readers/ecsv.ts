@@ -34,7 +34,7 @@ export async function openEcsv(src: InputSource, options: ReaderOptions & { read
   let header: EcsvHeader | null = null;
   const csv = await openCsv(src.path, {
     ...options,
-    textStream: src.gzip ? src.text(options.readChunkBytes) : undefined,
+    textStream: src.needsDecoding ? src.text(options.readChunkBytes) : undefined,
     onPreamble: (comments) => {
       header = parseHeader(comments, src);
       return { delimiter: header.delimiter };
@@ -42,6 +42,9 @@ export async function openEcsv(src: InputSource, options: ReaderOptions & { read
   });
   try {
     if (header === null) throw new InputError(`${src.name}: no ECSV header found (the first line must be \`# %ECSV 1.0\`)`, src.path, 'line 1');
+    // Notes from decoding (bytes that are not UTF-8) belong with the CSV reader's, which this reader shows.
+    src.attachNotes(csv.notes);
+    if (src.encodingNote) csv.notes?.unshift(src.encodingNote);
     return new EcsvReader(src, csv, header);
   } catch (err) {
     await csv.close();

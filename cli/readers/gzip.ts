@@ -14,18 +14,39 @@ export function isGzip(head: Uint8Array): boolean {
 }
 
 /**
- * Catalog text compresses by a factor of 3-20; deflate cannot exceed about 1032. A ratio past
- * this, once past the floor below, is a bomb or a pathological file, and reading stops.
+ * Catalog text compresses by a factor of 3-20 (common practice; the demo catalog gives 4); deflate
+ * cannot exceed about 1032. A ratio past this, once past the floor below, is a bomb or a
+ * pathological file, and reading stops.
  */
 export const MAX_INFLATE_RATIO = 200;
-/** Below this many decompressed bytes the ratio is not checked (a small, very regular file). */
-export const INFLATE_FLOOR_BYTES = 1 << 30;
+/** Up to this many decompressed bytes the ratio is not checked (a small, very regular file). */
+export const INFLATE_FLOOR_BYTES = 64 * 1024 * 1024;
+/** Environment variable that sets the limit in bytes (suffixes k, M, G, T: powers of 1024), or `off`. */
+export const INFLATE_LIMIT_ENV = 'STARSIEVE_MAX_INFLATED_BYTES';
 
-/** Most decompressed bytes accepted for an input of `compressedBytes` (null when unknown). */
-export function inflateLimit(compressedBytes: number | null, override?: number): number {
+/**
+ * Most decompressed bytes accepted for an input of `compressedBytes` (null when unknown): the
+ * option if given, else the environment variable, else the larger of the floor and
+ * MAX_INFLATE_RATIO times the compressed size.
+ */
+export function inflateLimit(compressedBytes: number | null, override?: number, env = process.env[INFLATE_LIMIT_ENV]): number {
   if (override !== undefined) return override;
+  if (env !== undefined && env.trim() !== '') return parseByteSize(env);
   if (compressedBytes === null) return Number.MAX_SAFE_INTEGER;
   return Math.max(INFLATE_FLOOR_BYTES, MAX_INFLATE_RATIO * compressedBytes);
+}
+
+const SUFFIX: Readonly<Record<string, number>> = { '': 1, k: 2 ** 10, m: 2 ** 20, g: 2 ** 30, t: 2 ** 40 };
+
+/** `500M`, `4G`, `1048576`, `off`; anything else is a one-line error naming the variable. */
+export function parseByteSize(text: string): number {
+  const t = text.trim().toLowerCase();
+  if (t === 'off' || t === 'none' || t === 'unlimited') return Number.MAX_SAFE_INTEGER;
+  const m = /^(\d+(?:\.\d+)?)\s*([kmgt]?)i?b?$/.exec(t);
+  if (!m) {
+    throw new InputError(`${INFLATE_LIMIT_ENV}=${JSON.stringify(text)} is not a size; give bytes such as 4G, 500M or 1048576, or off`, INFLATE_LIMIT_ENV);
+  }
+  return Math.floor(Number(m[1]) * SUFFIX[m[2]]);
 }
 
 function gzipProblem(err: unknown, path: string, produced: number): InputError {
@@ -51,8 +72,9 @@ export function gunzipStream(compressed: Readable, path: string, limit: number):
       if (produced > limit) {
         done(
           new InputError(
-            `it decompresses to more than ${limit} bytes (over ${MAX_INFLATE_RATIO} times its compressed size); ` +
-              'this looks like a damaged file or a decompression bomb, so reading stopped',
+            `it decompresses to more than ${limit} bytes (the limit is the larger of ${INFLATE_FLOOR_BYTES >> 20} MiB and ` +
+              `${MAX_INFLATE_RATIO} times the compressed size, unless ${INFLATE_LIMIT_ENV} sets it); this looks like a damaged file ` +
+              `or a decompression bomb, so reading stopped (if the file is genuine, allow more with e.g. ${INFLATE_LIMIT_ENV}=8G)`,
             path,
             `decompressed byte ${limit}`,
           ),

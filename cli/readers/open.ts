@@ -21,7 +21,7 @@ export interface OpenOptions extends ReaderOptions {
   hdu?: number;
   /** VOTable: the TABLE to read, 1 = the first in the document (the default). */
   table?: number;
-  /** gzip: most decompressed bytes accepted (default: 200 times the file size, at least 1 GiB). */
+  /** gzip: most decompressed bytes accepted (default: see inflateLimit in gzip.ts). */
   maxInflatedBytes?: number;
   /** Bytes per read from disk; tests make it tiny to put chunk boundaries everywhere. */
   readChunkBytes?: number;
@@ -52,9 +52,12 @@ const ARROW_FILE_MAGIC = ascii('ARROW1');
 const ARROW_CONTINUATION = [0xff, 0xff, 0xff, 0xff];
 const FITS_SIGNATURE = ascii('SIMPLE  =');
 
-/** The text reader for CSV-like tables, fed by the source (so gzip works). */
+/** The text reader for CSV-like tables, fed by the source where it must decode (gzip, UTF-16, Latin-1). */
 const csvFrom = (src: InputSource, options: OpenOptions, delimiter?: string) =>
-  openCsv(src.path, { ...options, delimiter: options.delimiter ?? delimiter, textStream: src.gzip ? src.text(options.readChunkBytes) : undefined });
+  openCsv(src.path, { ...options, delimiter: options.delimiter ?? delimiter, textStream: src.needsDecoding ? src.text(options.readChunkBytes) : undefined });
+
+/** Formats that are text, and so are read in the encoding the first bytes show. */
+const TEXT_FORMATS = new Set(['csv', 'tsv', 'ecsv', 'votable']);
 
 export const FORMATS: readonly FormatEntry[] = [
   {
@@ -171,7 +174,41 @@ export async function openCatalog(path: string, options: OpenOptions = {}): Prom
     );
   }
   checkOptionsApply(entry.format, options, path);
-  return entry.open(src, readerOptions);
+  if (TEXT_FORMATS.has(entry.format)) checkText(src, entry.format);
+  const reader = await entry.open(src, readerOptions);
+  // ECSV does both itself, on its inner CSV reader's notes (its own `notes` is a merged copy).
+  if (TEXT_FORMATS.has(entry.format) && entry.format !== 'ecsv') {
+    src.attachNotes(reader.notes);
+    if (src.encodingNote) reader.notes?.unshift(src.encodingNote);
+  }
+  return reader;
+}
+
+/**
+ * Refusals that only make sense for text: an encoding no reader decodes, and an HTML page (a
+ * download that returned an error or login page) where a table should be. Both would otherwise
+ * become one column of nonsense and findings that hide the real problem.
+ */
+function checkText(src: InputSource, format: string): void {
+  if (src.encoding === 'utf-32le' || src.encoding === 'utf-32be') {
+    throw new InputError(
+      `${src.name} is ${src.encodingNote}, which starsieve does not read; convert it to UTF-8 first (iconv -f UTF-32 -t UTF-8)`,
+      src.path,
+      'byte 0',
+    );
+  }
+  if (format === 'votable') return;
+  const text = new TextDecoder(src.encoding === 'utf-8' ? 'utf-8' : src.encoding).decode(src.head.subarray(0, 512));
+  const start = text.replace(/^[\ufeff\s]+/, '').slice(0, 64);
+  const m = /^<(!doctype\s+html|html[\s>]|head[\s>]|body[\s>])/i.exec(start);
+  if (m) {
+    throw new InputError(
+      `${src.name}, line 1: this is an HTML page, not a ${format.toUpperCase()} table (it starts with ${JSON.stringify(start.split('\n')[0].slice(0, 40))}); ` +
+        'a download that returned an error or login page? Fetch the file again',
+      src.path,
+      'line 1',
+    );
+  }
 }
 
 /** --hdu and --table belong to one format each; on another they are a mistake worth saying. */

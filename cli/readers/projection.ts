@@ -7,8 +7,12 @@
 import type { CatalogReader, RawColumn } from './types.js';
 
 export interface ColumnProjection {
-  /** Later batches need to hold real values only in these columns (indices into `columns`). */
-  selectColumns(indices: readonly number[]): void;
+  /**
+   * Later batches need to hold real values only in these columns (indices into `columns`, all
+   * of them); those also in `textIndices` are read as text, the others as numbers (a reader that
+   * keeps each column in its stored type may ignore the distinction).
+   */
+  selectColumns(indices: readonly number[], textIndices?: readonly number[]): void;
 }
 
 export function canSelectColumns(reader: CatalogReader): reader is CatalogReader & ColumnProjection {

@@ -19,7 +19,13 @@ export type RawColumn =
   /** One string per row; null where the cell is absent (short row) or a typed null. */
   | { kind: 'text'; values: (string | null)[] }
   /** Numbers from a binary format; NaN for NaN; `nulls[i] = 1` for a typed null (then values[i] is NaN). */
-  | { kind: 'number'; values: Float64Array; nulls: Uint8Array | null };
+  | { kind: 'number'; values: Float64Array; nulls: Uint8Array | null }
+  /**
+   * Text read straight into numbers (the CSV fast path): `values` holds each plain decimal, NaN
+   * for empty and absent cells and for the cells listed in `oddIndex`/`oddText`, which were not
+   * plain decimals and are kept as written for the binder's lenient reading.
+   */
+  | { kind: 'scanned'; values: Float64Array; oddIndex: number[]; oddText: string[] };
 
 export interface MalformedRecord {
   /** Index in the batch of the row this record became, or -1 when no row was produced. */

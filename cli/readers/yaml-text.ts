@@ -26,8 +26,24 @@ export interface ParsedYaml {
   value: unknown;
   /** Where the node at `path` starts (or its nearest existing parent). */
   where(path: readonly (string | number)[]): Position;
+  /** The position of a character offset in the text. */
+  at(offset: number): Position;
   /** Where the key of the map entry at `path` starts: the place to point at for an unknown key. */
   whereKey(path: readonly (string | number)[]): Position;
+}
+
+/**
+ * The yaml package's cap on alias expansion: plenty for hand-written YAML, far too little for an
+ * alias bomb (nested anchors that expand exponentially). Only plain data is ever built: the
+ * package's default (core) schema has no tag that runs code, and an unknown tag leaves a string
+ * and a warning (the binding file refuses it; ECSV headers keep astropy's own tags).
+ */
+export const MAX_ALIAS_COUNT = 100;
+
+/** Where the first alias is, for the message; the document start if none is found. */
+function firstAlias(text: string, at: (offset: number) => Position): Position {
+  const m = /(^|[\s,[{:])\*[^\s,\]}]+/m.exec(text);
+  return at(m ? m.index + m[1].length : 0);
 }
 
 export function parseYaml(text: string, map: (p: Position) => Position = (p) => p): ParsedYaml {
@@ -42,9 +58,20 @@ export function parseYaml(text: string, map: (p: Position) => Position = (p) => 
     const first = problem.message.split('\n')[0].replace(/ at line \d+, column \d+:?$/, '');
     throw new YamlProblem(`not valid YAML: ${first}`, at(problem.pos[0]));
   }
+  let value: unknown;
+  try {
+    value = plain(doc.toJS({ mapAsMap: false, maxAliasCount: MAX_ALIAS_COUNT }));
+  } catch (err) {
+    // The yaml package refuses alias chains that expand past the count (a "billion laughs" file).
+    if (err instanceof ReferenceError || /alias/i.test((err as Error)?.message ?? '')) {
+      throw new YamlProblem('not accepted: its aliases (*name) expand too far, as in an alias bomb; write the values out', firstAlias(text, at));
+    }
+    throw err;
+  }
   return {
     doc,
-    value: plain(doc.toJS({ mapAsMap: false, maxAliasCount: 100 })),
+    value,
+    at,
     where(path) {
       for (let k = path.length; k >= 0; k--) {
         const node = k === 0 ? doc.contents : doc.getIn(path.slice(0, k), true);

@@ -1,11 +1,36 @@
 import { closeSync, fsyncSync, openSync, renameSync, rmSync, writeSync } from 'node:fs';
 import { basename, dirname, join } from 'node:path';
+import { describeIoError } from '../readers/common.js';
+
+/** Temporary files not yet committed or aborted; removed if the process exits without either. */
+const open = new Set<AtomicFile>();
+let exitHook = false;
+
+/**
+ * A file write that failed, as one readable line naming the file the user asked for (not the
+ * temporary one). Keeps the system error's code, so the CLI reports it as an I/O error (exit 2).
+ */
+export class OutputError extends Error {
+  constructor(
+    message: string,
+    readonly code: string,
+  ) {
+    super(message);
+    this.name = 'OutputError';
+  }
+}
+
+function outputError(what: string, target: string, err: unknown): OutputError {
+  const code = (err as { code?: unknown } | null)?.code;
+  return new OutputError(`cannot ${what} ${target}: ${describeIoError(err)}`, typeof code === 'string' ? code : 'EIO');
+}
 
 /**
  * A file written through a temporary sibling and renamed into place on commit, so a reader never
- * sees half a report and an interrupted run leaves the previous report intact. Writes are
- * buffered and flushed synchronously in large chunks: simple, and far cheaper than a stream per
- * finding.
+ * sees half a report and an interrupted run leaves the previous report intact. The temporary file
+ * sits in the target's folder (a rename across file systems would not be atomic) and nowhere
+ * else. Writes are buffered and flushed synchronously in large chunks: simple, and far cheaper
+ * than a stream per finding.
  */
 export class AtomicFile {
   private readonly tmp: string;
@@ -15,7 +40,19 @@ export class AtomicFile {
 
   constructor(readonly target: string) {
     this.tmp = join(dirname(target), `.${basename(target)}.${process.pid}.tmp`);
-    this.fd = openSync(this.tmp, 'w');
+    try {
+      this.fd = openSync(this.tmp, 'w');
+    } catch (err) {
+      throw outputError('write', target, err);
+    }
+    open.add(this);
+    if (!exitHook) {
+      exitHook = true;
+      // process.exit() (a signal handler, say) skips every finally block; this still runs.
+      process.on('exit', () => {
+        for (const f of open) f.abort();
+      });
+    }
   }
 
   write(text: string): void {
@@ -26,7 +63,12 @@ export class AtomicFile {
 
   private flush(): void {
     if (this.fd === null || this.pending.length === 0) return;
-    writeSync(this.fd, this.pending.join(''));
+    try {
+      writeSync(this.fd, this.pending.join(''));
+    } catch (err) {
+      this.abort();
+      throw outputError('write', this.target, err);
+    }
     this.pending = [];
     this.pendingLength = 0;
   }
@@ -34,16 +76,29 @@ export class AtomicFile {
   commit(): void {
     if (this.fd === null) return;
     this.flush();
-    fsyncSync(this.fd);
-    closeSync(this.fd);
-    this.fd = null;
-    renameSync(this.tmp, this.target);
+    try {
+      fsyncSync(this.fd!);
+      closeSync(this.fd!);
+      this.fd = null;
+      renameSync(this.tmp, this.target);
+    } catch (err) {
+      // A target that is a directory, a full disk: the earlier file stays, the temporary one goes.
+      this.abort();
+      throw outputError('write', this.target, err);
+    }
+    open.delete(this);
   }
 
   abort(): void {
-    if (this.fd === null) return;
-    closeSync(this.fd);
-    this.fd = null;
+    open.delete(this);
+    if (this.fd !== null) {
+      try {
+        closeSync(this.fd);
+      } catch {
+        // Already closed by the failure that brought us here.
+      }
+      this.fd = null;
+    }
     rmSync(this.tmp, { force: true });
   }
 }

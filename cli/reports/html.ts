@@ -159,7 +159,7 @@ export function renderHtml(d: HtmlReportData): string {
         ['severity', 'row', 'line', 'star', 'message', 'suggestion'],
         list.map((f) => [
           `<span class="${f.severity}">${f.severity}</span>`,
-          f.row === null ? 'column' : num(f.row),
+          f.scope === 'column' ? 'column' : f.row === null ? 'no row' : num(f.row),
           f.line === null ? '' : num(f.line),
           esc(f.id ?? ''),
           esc(f.message) + (f.cause ? ` <span class="meta">(likely caused by ${esc(f.cause)})</span>` : ''),

@@ -9,6 +9,8 @@ export interface ReportTail {
   bindings: unknown[];
   rules: unknown[];
   summary: unknown;
+  /** Which part of a sharded run this report is, and the inputs of the whole run. */
+  shard?: { index: number; count: number; paths: string[] };
 }
 
 /**
@@ -34,7 +36,7 @@ export class JsonReportWriter {
 
   commit(tail: ReportTail): void {
     this.file.write(
-      `\n],\n"inputs":${JSON.stringify(tail.inputs)},\n"bindings":${JSON.stringify(tail.bindings)},\n"rules":${JSON.stringify(tail.rules)},\n"summary":${JSON.stringify(tail.summary)}\n}\n`,
+      `\n],\n"inputs":${JSON.stringify(tail.inputs)},\n"bindings":${JSON.stringify(tail.bindings)},\n"rules":${JSON.stringify(tail.rules)},\n"summary":${JSON.stringify(tail.summary)}${tail.shard ? `,\n"shard":${JSON.stringify(tail.shard)}` : ''}\n}\n`,
     );
     this.file.commit();
   }

@@ -14,6 +14,14 @@ export interface InputSummary {
   notes: string[];
 }
 
+/**
+ * Catalog text as it may be shown on a terminal: control characters (an escape sequence in an id
+ * could recolour or rewrite the screen) are written as visible `\xNN` escapes.
+ */
+export function safe(text: string): string {
+  return text.replace(/[\x00-\x08\x0b-\x1f\x7f-\x9f]/g, (ch) => `\\x${ch.charCodeAt(0).toString(16).padStart(2, '0')}`).replace(/[\t\n]/g, ' ');
+}
+
 /** Keeps the first few findings of each rule for the terminal; everything else is only counted. */
 export class TerminalCollector implements FindingSink {
   readonly shown = new Map<string, Finding[]>();
@@ -55,13 +63,13 @@ export function renderTerminal(
   const lines: string[] = [];
   for (const inp of inputs) {
     lines.push(
-      c.bold(inp.path) +
+      c.bold(safe(inp.path)) +
         `  ${inp.format}, ${num(inp.rows)} rows` +
         (inp.unparseableRecords ? c.yellow(`, ${num(inp.unparseableRecords)} records not parseable`) : '') +
         `, ${num(inp.rowsWithFindings)} with findings`,
     );
-    if (inp.bound.length) lines.push(c.dim('  bound: ' + inp.bound.map((b) => `${b.quantity}=${b.column} [${b.unit || '-'}]`).join(', ')));
-    for (const n of inp.notes) lines.push(c.dim('  note: ' + n));
+    if (inp.bound.length) lines.push(c.dim('  bound: ' + safe(inp.bound.map((b) => `${b.quantity}=${b.column} [${b.unit || '-'}]`).join(', '))));
+    for (const n of inp.notes) lines.push(c.dim('  note: ' + safe(n)));
   }
   lines.push('');
   const w = Math.max(24, ...rules.map((r) => r.id.length + 2));
@@ -90,10 +98,12 @@ export function renderTerminal(
     for (const f of shown) {
       const where =
         f.scope === 'column'
-          ? `${inputs[f.input]?.path ?? ''} column`
-          : `row ${f.row}` + (f.line !== null ? ` (line ${f.line})` : '') + (f.id ? ` ${f.id}` : '');
-      lines.push(`  ${sev(f.severity, pad(f.severity, 7))} ${c.bold(where)}: ${f.message}`);
-      if (f.suggestion) lines.push(c.dim(`          suggestion: ${f.suggestion.text}`));
+          ? `${safe(inputs[f.input]?.path ?? '')} column`
+          : f.row === null
+            ? `line ${f.line ?? '?'} (no row)`
+            : `row ${f.row}` + (f.line !== null ? ` (line ${f.line})` : '') + (f.id ? ` ${safe(f.id)}` : '');
+      lines.push(`  ${sev(f.severity, pad(f.severity, 7))} ${c.bold(where)}: ${safe(f.message)}`);
+      if (f.suggestion) lines.push(c.dim(`          suggestion: ${safe(f.suggestion.text)}`));
     }
     if (total > shown.length) lines.push(c.dim(`  ... ${num(total - shown.length)} more in the report`));
   }

@@ -129,6 +129,8 @@ export const bolometricMagnitudeMismatch: Rule = {
       };
       return base;
     };
+    /** The deferred verdict on one row; made here so it holds only the row's numbers (see heldFinding). */
+    const later = (base: Finding, row: MbolRow) => (off: number) => judge(base, row, off);
 
     return {
       check(batch, out, stats) {
@@ -170,7 +172,7 @@ export const bolometricMagnitudeMismatch: Rule = {
             values: { [mb.column]: round6(mb.raw[i]), [lum.column]: round6(lum.raw[i]) },
             message: '',
           });
-          judgeRows.route(residual, k * sigma, out, (off) => judge(base, row, off));
+          judgeRows.route(residual, k * sigma, out, later(base, row));
         }
       },
       finish(out) {

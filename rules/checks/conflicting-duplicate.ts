@@ -1,12 +1,12 @@
-import { columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
+import { columnFinding, fmt, round6, rowFindingAt } from '../engine/findings.js';
 import type { NumericQuantity } from '../engine/quantities.js';
 import { usableValues } from '../engine/usable.js';
-import type { Batch, ExpectedValue, Finding, QuantityColumn, Rule } from '../engine/types.js';
-import { FingerprintSet, SET_FULL, growF32, idColumnOf } from './shared/fingerprints.js';
+import type { ExpectedValue, Finding, Rule } from '../engine/types.js';
+import { Fingerprint, FirstByRow, KeyLog, growF32, idColumnOf, type KeyEvent } from './shared/fingerprints.js';
 
 const ID = 'conflicting-duplicate';
 
-/** Quantities compared between the rows of one id (stored as 32-bit floats per distinct id). */
+/** Quantities compared between the rows of one id (the first row's kept as 32-bit floats). */
 const COMPARED: readonly NumericQuantity[] = ['mass', 'radius', 'teff', 'luminosity'];
 const SHOWN_UNIT: Readonly<Partial<Record<NumericQuantity, string>>> = { mass: 'M_sun', radius: 'R_sun', teff: 'K', luminosity: 'L_sun' };
 /**
@@ -44,7 +44,6 @@ export const conflictingDuplicate: Rule = {
         min: 0,
         description: 'A difference within this many combined uncertainties is not a conflict, when both uncertainties are below half their values.',
       },
-      { name: 'maxIds', type: 'number', default: 5_000_000, min: 1000, description: 'Distinct ids tracked per input (about 70 bytes each); later new ids are counted, not tracked.' },
       { name: 'maxFindings', type: 'number', default: 1000, min: 1, description: 'Row findings per input; beyond them one column finding gives the count.' },
     ],
     references: [
@@ -61,7 +60,7 @@ export const conflictingDuplicate: Rule = {
       silent:
         'A host with M = 0.95 +- 0.05 on one row and 1.02 +- 0.05 on the next (7 %, within 3 sigma); a host repeated with identical values (duplicate-id and duplicate-row each give one note).',
       cautions:
-        'Each repeat is compared with the first row of its id, not with every earlier row, and only where both rows have the value; the finding cannot tell which row is right. The 25 % tolerance is ours: composite tables legitimately mix estimates that differ by 10-20 %. Memory grows with the number of distinct ids (about 70 bytes each) up to maxIds; each input is judged on its own.',
+        'Each repeat is compared with the first row of its id, not with every earlier row, and only where both rows have the value; the finding cannot tell which row is right. The 25 % tolerance is ours: composite tables legitimately mix estimates that differ by 10-20 %. Each input is judged on its own. The rows are kept in temporary files and compared at the end of the input, so memory does not grow with the rows, and the findings come at the end of the input, after the row findings of the other rules.',
     },
   },
   start(ctx) {
@@ -69,26 +68,17 @@ export const conflictingDuplicate: Rule = {
     const teffTol = ctx.params.teffTolerance as number;
     const k = ctx.params.sigmas as number;
     const maxFindings = ctx.params.maxFindings as number;
-    const ids = new FingerprintSet(ctx.params.maxIds as number);
-    // The first row's value and uncertainty of each compared quantity, per distinct id.
-    let stored: Float32Array[] = COMPARED.map(() => new Float32Array(1024).fill(NaN));
-    let storedErr: Float32Array[] = COMPARED.map(() => new Float32Array(1024).fill(NaN));
+    const J = COMPARED.length;
+    // Per row: the compared values (usable) and their uncertainties, after the key.
+    const keys = new KeyLog(ctx.spill, 2 * J);
+    const fp = new Fingerprint();
+    const extras = new Float64Array(2 * J);
     let conflicts = 0;
     let input = 0;
     let idColumn = '';
+    /** The column and unit each compared quantity is read from in this input, null where unbound. */
+    const bound: ({ column: string; unit: string } | null)[] = COMPARED.map(() => null);
     const byQuantity = new Map<string, number>();
-
-    function grow(n: number): void {
-      if (n < stored[0].length) return;
-      const size = stored[0].length * 2;
-      const widen = (a: Float32Array) => {
-        const out = growF32(a, size);
-        out.fill(NaN, a.length);
-        return out;
-      };
-      stored = stored.map(widen);
-      storedErr = storedErr.map(widen);
-    }
 
     /** Whether the first row's value a (error ea) and this row's b (error eb) of COMPARED[j] conflict. */
     function conflict(j: number, a: number, b: number, ea: number, eb: number): boolean {
@@ -98,50 +88,53 @@ export const conflictingDuplicate: Rule = {
       return !(informative(a, b, ea, eb) && diff <= k * Math.hypot(ea, eb));
     }
 
-    /** The finding for row i, a repeat of entry e whose quantities in `mask` conflict (`vals`: the batch's usable values). */
-    function conflictFinding(batch: Batch, i: number, e: number, id: string, mask: number, vals: (Float64Array | null)[]): Finding {
-      const first = ids.firstRow[e];
+    /** The finding for a repeat whose quantities in `mask` conflict with its id's first row (`first`: values, then errors). */
+    function conflictFinding(e: KeyEvent, first: Float32Array, mask: number): Finding {
+      const id = e.text!;
+      const r = e.records;
       const parts: string[] = [];
       const columns = [idColumn];
-      const values: Record<string, number | string | null> = { [idColumn]: id, firstRow: first };
+      const values: Record<string, number | string | null> = { [idColumn]: id, firstRow: e.firstRow };
       let expected: ExpectedValue | null = null;
-      for (let j = 0; j < COMPARED.length; j++) {
+      for (let j = 0; j < J; j++) {
         if (!(mask & (1 << j))) continue;
-        byQuantity.set(COMPARED[j], (byQuantity.get(COMPARED[j]) ?? 0) + 1);
-        const col = batch.quantities[COMPARED[j]]!;
-        const a = stored[j][e];
-        const b = vals[j]![i];
-        const ea = storedErr[j][e];
-        const eb = errorOf(col.errLo, col.errHi, i);
+        const col = bound[j]!;
+        const a = first[j];
+        const ea = first[J + j];
+        const b = r[e.at + 4 + j];
+        const eb = r[e.at + 4 + J + j];
         const why = informative(a, b, ea, eb)
           ? `${fmt(Math.abs(a - b) / Math.hypot(ea, eb), 2)} combined sigma`
           : ea >= INFORMATIVE_RELATIVE_ERROR * a || eb >= INFORMATIVE_RELATIVE_ERROR * b
             ? 'an uncertainty of half its value or more excuses nothing'
             : 'not both rows give an uncertainty';
-        parts.push(`${col.column} = ${describe(COMPARED[j], col, b, eb)} here but ${describe(COMPARED[j], col, a, ea)} there (a factor ${fmt(Math.max(a, b) / Math.min(a, b), 3)}; ${why})`);
+        parts.push(`${col.column} = ${describe(COMPARED[j], col.unit, b, eb)} here but ${describe(COMPARED[j], col.unit, a, ea)} there (a factor ${fmt(Math.max(a, b) / Math.min(a, b), 3)}; ${why})`);
         columns.push(col.column);
         values[col.column] = round6(b);
-        values[`${col.column} (row ${first})`] = round6(a);
+        values[`${col.column} (row ${e.firstRow})`] = round6(a);
         expected ??= { value: round6(a) ?? undefined, unit: col.unit };
       }
-      return rowFinding(batch, i, {
+      const line = r[e.at + 3];
+      return rowFindingAt(input, r[e.at + 2], line === line ? line : null, id, {
         rule: ID,
         severity: 'warning',
         columns,
         values,
         expected,
-        message: `${idColumn} \`${id}\` is also on row ${first} with other values: ${parts.join('; ')}. One star cannot have both`,
+        message: `${idColumn} \`${id}\` is also on row ${e.firstRow} with other values: ${parts.join('; ')}. One star cannot have both`,
       });
     }
 
     return {
-      check(batch, out, stats) {
+      check(batch, _out, stats) {
         input = batch.input;
         const idCol = idColumnOf(batch, stats);
         if (!idCol) return;
         idColumn = idCol.column;
         const cols = COMPARED.map((q) => batch.quantities[q] ?? null);
+        cols.forEach((c, j) => (bound[j] = c ? { column: c.column, unit: c.unit } : null));
         const vals = COMPARED.map((q) => usableValues(batch, q));
+        const lines = batch.lines;
         for (let i = 0; i < batch.length; i++) {
           const id = idCol.values[i];
           if (id === null) {
@@ -149,34 +142,38 @@ export const conflictingDuplicate: Rule = {
             continue;
           }
           stats.checked++;
-          const e = ids.addText(id, batch.firstRow + i);
-          if (e === SET_FULL) continue;
-          if (ids.added) {
-            grow(e);
-            for (let j = 0; j < COMPARED.length; j++) {
-              const v = vals[j];
-              if (!v) continue;
-              stored[j][e] = v[i];
-              storedErr[j][e] = errorOf(cols[j]!.errLo, cols[j]!.errHi, i);
-            }
-            continue;
-          }
-          // Which compared quantities conflict, as bits; the finding is only built when one does.
-          let mask = 0;
-          for (let j = 0; j < COMPARED.length; j++) {
+          for (let j = 0; j < J; j++) {
             const v = vals[j];
-            if (v && conflict(j, stored[j][e], v[i], storedErr[j][e], errorOf(cols[j]!.errLo, cols[j]!.errHi, i))) mask |= 1 << j;
+            extras[j] = v ? v[i] : NaN;
+            extras[J + j] = v ? errorOf(cols[j]!.errLo, cols[j]!.errHi, i) : NaN;
           }
-          if (mask === 0) continue;
-          conflicts++;
-          if (conflicts > maxFindings) {
-            for (let j = 0; j < COMPARED.length; j++) if (mask & (1 << j)) byQuantity.set(COMPARED[j], (byQuantity.get(COMPARED[j]) ?? 0) + 1);
-            continue;
-          }
-          out.push(conflictFinding(batch, i, e, id, mask, vals));
+          fp.reset().text(id).done();
+          keys.add(fp.hi, fp.lo, batch.firstRow + i, lines ? lines[i] : null, id, extras);
         }
       },
       finish(out) {
+        const listed = new FirstByRow(maxFindings);
+        // The first row's values of each id in the partition being replayed, as 32-bit floats.
+        let firstValues: Float32Array = new Float32Array(0);
+        const one = new Float32Array(2 * J);
+        keys.replay((e) => {
+          const base = e.entry * 2 * J;
+          if (e.first) {
+            if (base + 2 * J > firstValues.length) firstValues = growF32(firstValues, Math.max(1024, 2 * (base + 2 * J)));
+            for (let f = 0; f < 2 * J; f++) firstValues[base + f] = e.records[e.at + 4 + f];
+            return;
+          }
+          let mask = 0;
+          for (let j = 0; j < J; j++) {
+            if (bound[j] && conflict(j, firstValues[base + j], e.records[e.at + 4 + j], firstValues[base + J + j], e.records[e.at + 4 + J + j])) mask |= 1 << j;
+          }
+          if (mask === 0) return;
+          conflicts++;
+          for (let j = 0; j < J; j++) if (mask & (1 << j)) byQuantity.set(COMPARED[j], (byQuantity.get(COMPARED[j]) ?? 0) + 1);
+          one.set(firstValues.subarray(base, base + 2 * J));
+          listed.offer(e.records[e.at + 2], () => conflictFinding(e, one, mask));
+        });
+        for (const f of listed.list()) out.push(f);
         if (conflicts > maxFindings) {
           out.push(
             columnFinding({
@@ -191,7 +188,7 @@ export const conflictingDuplicate: Rule = {
         }
       },
       summary() {
-        return { distinctIds: ids.size, conflicts, byQuantity: Object.fromEntries(byQuantity), untracked: ids.size >= ids.maxSize };
+        return { distinctIds: keys.distinct, conflicts, byQuantity: Object.fromEntries(byQuantity) };
       },
     };
   },
@@ -203,8 +200,8 @@ function informative(a: number, b: number, ea: number, eb: number): boolean {
 }
 
 /** A value for the message as the column writes it: log L for a log column, else linear, with its error and unit. */
-function describe(q: NumericQuantity, col: QuantityColumn, v: number, err: number): string {
-  if (col.unit.startsWith('log')) return fmt(Math.log10(v), 3);
+function describe(q: NumericQuantity, unit: string, v: number, err: number): string {
+  if (unit.startsWith('log')) return fmt(Math.log10(v), 3);
   return `${fmt(v)}${err > 0 ? ` +- ${fmt(err)}` : ''} ${SHOWN_UNIT[q]}`;
 }
 

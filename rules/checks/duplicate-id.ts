@@ -1,6 +1,6 @@
-import { rowFinding } from '../engine/findings.js';
+import { rowFindingAt } from '../engine/findings.js';
 import type { Rule } from '../engine/types.js';
-import { FingerprintSet, RepeatLog, SET_FULL, idColumnOf } from './shared/fingerprints.js';
+import { Fingerprint, KeyLog, RepeatLog, idColumnOf } from './shared/fingerprints.js';
 
 const ID = 'duplicate-id';
 
@@ -26,7 +26,6 @@ export const duplicateId: Rule = {
         max: 1,
         description: 'Repeated rows are listed one by one while at most this fraction of rows (or at most 10 rows) repeat an id; above it, one note says the table has several rows per star.',
       },
-      { name: 'maxIds', type: 'number', default: 10_000_000, min: 1000, description: 'Distinct ids tracked per input (about 40 bytes each); later new ids are counted, not tracked.' },
     ],
     references: [
       { cite: 'IEEE 754 binary64: integers above 2^53 = 9.0e15 are not all representable (Gaia DR3 source_id has 19 digits)' },
@@ -42,11 +41,13 @@ export const duplicateId: Rule = {
       silent:
         'The same catalog read with the 19-digit ids as doubles would report 33 repeats; as text there is one. A PHL or NASA table with 1313 rows repeating their host: one note, no row findings.',
       cautions:
-        'Ids are compared exactly (letter case kept): `GJ 1` and `Gl 1` are different ids, so cross-identifications are not found. Memory grows with the number of distinct ids (about 40 bytes each) up to maxIds; each input is judged on its own, so a star repeated across shards is not found.',
+        'Ids are compared exactly (letter case kept): `GJ 1` and `Gl 1` are different ids, so cross-identifications are not found. Each input is judged on its own, so a star repeated in two inputs (or two shards) is not found. The ids are kept in temporary files until the end of the input, so memory does not grow with the rows; repeats are listed at the end of the input.',
     },
   },
   start(ctx) {
-    const ids = new FingerprintSet(ctx.params.maxIds as number);
+    // One record per row with an id, spilled to disk by the command line: memory stays flat.
+    const keys = new KeyLog(ctx.spill);
+    const fp = new Fingerprint();
     const log = new RepeatLog(1000, ctx.params.listFraction as number);
     let input = 0;
     let column = '';
@@ -57,6 +58,7 @@ export const duplicateId: Rule = {
         if (!idCol) return;
         column = idCol.column;
         const values = idCol.values;
+        const lines = batch.lines;
         for (let i = 0; i < batch.length; i++) {
           const id = values[i];
           if (id === null) {
@@ -65,17 +67,19 @@ export const duplicateId: Rule = {
           }
           stats.checked++;
           log.rows++;
-          const row = batch.firstRow + i;
-          const e = ids.addText(id, row);
-          if (e === SET_FULL) {
-            log.untracked++;
-            continue;
-          }
-          if (ids.added) continue;
-          const first = ids.firstRow[e];
-          const n = ids.count[e];
-          log.repeat(n, id, () =>
-            rowFinding(batch, i, {
+          fp.reset().text(id).done();
+          keys.add(fp.hi, fp.lo, batch.firstRow + i, lines ? lines[i] : null, id);
+        }
+      },
+      finish(out) {
+        keys.replay((e) => {
+          if (e.first) return;
+          const id = e.text!;
+          const row = e.records[e.at + 2];
+          const line = e.records[e.at + 3];
+          const { firstRow: first, count: n } = e;
+          log.repeat(n, id, row, () =>
+            rowFindingAt(input, row, line === line ? line : null, id, {
               rule: ID,
               severity: 'warning',
               columns: [column],
@@ -83,9 +87,7 @@ export const duplicateId: Rule = {
               message: `${column} \`${id}\` is already on row ${first}${n > 2 ? ` (${n} rows so far)` : ''}: the same star twice, or two stars under one id`,
             }),
           );
-        }
-      },
-      finish(out) {
+        });
         const listed = log.flush(out);
         for (const f of log.notes(ID, input, column, (l) =>
           `${l.repeats} of ${l.rows} rows ${l.repeats === 1 ? 'repeats' : 'repeat'} an id seen on an earlier row (${l.keysRepeated} ${l.keysRepeated === 1 ? 'id is' : 'ids are'} on two or more rows, at most ${l.maxCount} for \`${l.maxKey}\`)${
@@ -93,12 +95,11 @@ export const duplicateId: Rule = {
               ? l.listedText('; each repeated row is listed')
               : ': the table holds several rows per star (one per planet or component?), so the rows are not listed one by one; conflicting-duplicate reports ids whose values disagree'
           }`,
-          ids.maxSize,
         ))
           out.push(f);
       },
       summary() {
-        return { distinctIds: ids.size, rowsRepeatingAnId: log.repeats, idsOnSeveralRows: log.keysRepeated, listed: log.listed() };
+        return { distinctIds: keys.distinct, rowsRepeatingAnId: log.repeats, idsOnSeveralRows: log.keysRepeated, listed: log.listed() };
       },
     };
   },

@@ -54,7 +54,7 @@ export const eddingtonLimit: Rule = {
       silent:
         'M = 60 M_sun, L = 5.1e5 L_sun: the X = 0.7 limit is 2.3e6 L_sun, Gamma_e = 0.22, as expected for an O star.',
       cautions:
-        'Only electron scattering is counted; real massive stars sit at Gamma_e = 0.3-0.9, so being near the limit is not flagged. Wolf-Rayet and other hydrogen-poor stars may legitimately pass the X = 0.7 limit (warning only); the error level uses X = 0. Masses of very massive stars in the literature differ by factors of 1.5.',
+        'Only electron scattering is counted; real massive stars sit at Gamma_e = 0.3-0.9, so being near the limit is not flagged. Wolf-Rayet and other hydrogen-poor stars may legitimately pass the X = 0.7 limit (warning only); the error level uses X = 0. Masses of very massive stars in the literature differ by factors of 1.5. A luminosity whose error reaches zero (e_L >= L) has no lower bound at L - k sigma and is never flagged unless sigmas = 0.',
     },
   },
   start(ctx) {
@@ -82,9 +82,12 @@ export const eddingtonLimit: Rule = {
           }
           stats.checked++;
           const dm = mErrHi && Number.isFinite(mErrHi[i]) ? mErrHi[i] : 0;
-          const dlog = logErrLo && Number.isFinite(logErrLo[i]) ? logErrLo[i] : 0;
+          // An error reaching down to zero (e_L >= L) is an unbounded log error: such a row can
+          // never be shown above the limit at L - k sigma.
+          const e = logErrLo ? logErrLo[i] : NaN;
+          const dlog = e === Infinity ? Infinity : Number.isFinite(e) ? e : 0;
           const mHigh = mi + k * dm;
-          const lLow = Math.pow(10, logL[i] - k * dlog);
+          const lLow = k > 0 ? Math.pow(10, logL[i] - k * dlog) : li;
           const limit0 = perMassZeroX * mHigh;
           const xi = xCol && xCol[i] >= 0 && xCol[i] <= 1 ? xCol[i] : defaultX;
           const perMassX = xCol && xi !== defaultX ? eddingtonPerSolarMass(xi) : perMassDefault;

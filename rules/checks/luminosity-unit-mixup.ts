@@ -24,6 +24,7 @@ const SPEC: UnitMixupSpec = {
   // Luminosities real stars have, in log L_sun: brown-dwarf boundary to beyond the brightest known.
   plausibleMin: -6,
   plausibleMax: 7.5,
+  shiftable: true,
 };
 
 export const luminosityUnitMixup: Rule = {
@@ -36,6 +37,13 @@ export const luminosityUnitMixup: Rule = {
     uses: ['radius', 'teff', 'mass', 'logg', 'stage', 'id'],
     params: [
       ...MIXUP_PARAMS,
+      {
+        name: 'minMissDex',
+        type: 'number',
+        default: 0.75,
+        min: 0,
+        description: 'A declared luminosity that stars can have must miss what the row implies by at least this many dex.',
+      },
       { name: 'relationToleranceDex', type: 'number', default: 0.5, min: 0.05, description: 'Sigma of the mass-luminosity expectation, used where R and Teff are not both known.' },
     ],
     references: [
@@ -47,13 +55,13 @@ export const luminosityUnitMixup: Rule = {
       catches:
         'Luminosities written in watts or erg/s under a solar-units header, a log L pasted into a linear column, a linear L in a log column. Names the likely unit and the corrected value; when most of a column is affected, one finding for the column.',
       why:
-        'Unit slips are the commonest luminosity error and the most damaging: watts are 26.58 dex and erg/s 33.58 dex above solar units, a log value is a different number altogether. Each reading of the cell is compared with what the rest of the row implies: 4 pi R^2 sigma Teff^4 where R and Teff are known (0.15 dex tolerance plus their errors), else the main-sequence mass-luminosity relation at its mass (0.5 dex). A reading that fits far better than the declared one is the likely unit. The flagged cell is then withheld from the other rules, so one slip gives one finding.',
+        'Unit slips are the commonest luminosity error and the most damaging: watts are 26.58 dex and erg/s 33.58 dex above solar units, a log value is a different number altogether. Each reading of the cell is compared with what the rest of the row implies: 4 pi R^2 sigma Teff^4 where R and Teff are known (0.15 dex tolerance plus their errors), else the main-sequence mass-luminosity relation at its mass (0.5 dex). The reading whose Gaussian likelihood is at least minLikelihoodRatio (1000) times that of the declared one is the likely unit, and the finding states the ratio; where the declared value is one stars can have, the reading must also fit within 3 sigma and the declared value miss by 0.75 dex. A value no star can have, with nothing in the row to weigh the readings, is read in the unit nearest the rest of its column. The flagged cell is then withheld from the other rules, so one slip gives one finding.',
       fires:
         'lum_Lsun = 3.9e26 for a star with R = 1.0 R_sun and Teff = 5800 K: as L_sun it is 26.6 dex off; as watts it is 1.02 L_sun, within 0.01 dex of 4 pi R^2 sigma Teff^4 (error; suggests 1.02).',
       silent:
         'lum_Lsun = 2.0 for a 1.2 M_sun star with no radius or Teff: as L_sun it is 0.2 dex from the relation and reading it as log (100 L_sun) fits no better.',
       cautions:
-        'Values between about 0.2 and 7 can be read as linear or log; without R and Teff the 0.5 dex mass-luminosity tolerance often cannot tell them apart, and the rule then stays silent. Giants and white dwarfs are judged only through R and Teff, never through the main-sequence relation. A star can be both mistyped and odd; the finding names the most likely reading, not a proof.',
+        'Values between about 0.2 and 7 can be read as linear or log; without R and Teff the 0.5 dex mass-luminosity tolerance often cannot tell them apart, and the rule then stays silent. The likelihood ratio assumes Gaussian residuals; real catalogs have heavier tails (the summary reports the share beyond 3 sigma), so a ratio of 1000 is weaker evidence than it reads, which is why a plausible declared value must also miss by 0.75 dex. In a log L column a super-Eddington log L near 5-6 is also a plausible linear luminosity, and is read as one where that fits the row. Giants and white dwarfs are judged only through R and Teff, never through the main-sequence relation. A star can be both mistyped and odd; the finding names the most likely reading, not a proof.',
     },
   },
   start(ctx) {

@@ -38,6 +38,7 @@ const SPEC: UnitMixupSpec = {
   plausibleMin: -2,
   plausibleMax: Math.log10(350),
   typicalLog: 0,
+  shiftable: true,
 };
 
 /**
@@ -73,7 +74,7 @@ export const massUnitMixup: Rule = {
       catches:
         'Masses written in kg, g, Jupiter masses or Earth masses under a solar-mass header, and log M pasted into a linear column. Names the likely unit and the corrected value; when most of a column is affected, one finding for the column.',
       why:
-        'kg and g are 30.30 and 33.30 dex above solar masses, Jupiter and Earth masses 3.02 and 5.52 dex (physics-reference.md §9); a planet-mass column mistaken for the host star is the classic case. Each reading of the cell is compared with the mass the row implies: g R^2 / G from logg and R (0.1 dex tolerance plus the errors and the batch\'s own logg scatter) and, for stars known to be on the main sequence, the mass-luminosity relation inverted at L (0.5 dex in L divided by the local slope). The declared reading must miss every available expectation by 5 sigma, and the chosen one fit every one within 3. A declared value that stars can have (0.01-350 M_sun) must also miss by 0.9 dex (1.5 dex where one relation is the only evidence). The flagged cell is withheld from the judging rules.',
+        'kg and g are 30.30 and 33.30 dex above solar masses, Jupiter and Earth masses 3.02 and 5.52 dex (physics-reference.md §9); a planet-mass column mistaken for the host star is the classic case. Each reading of the cell is compared with the mass the row implies: g R^2 / G from logg and R (0.1 dex tolerance plus the errors and the batch\'s own logg scatter) and, for stars known to be on the main sequence, the mass-luminosity relation inverted at L (0.5 dex in L divided by the local slope). A reading is suggested when its Gaussian likelihood given these expectations is at least minLikelihoodRatio (1000) times that of the declared reading (the finding states how many times); where the declared value is one stars can have (0.01-350 M_sun) the suggestion must also fit every expectation within 3 sigma and the declared value miss by 0.9 dex (1.5 dex where one relation is the only evidence). A power of ten that fits clearly better is left to decimal-shift. The flagged cell is withheld from the judging rules.',
       fires:
         'mass_Msun = 1047.6 for a star with logg 4.44 and R = 1.0 R_sun: as solar masses log M = 3.02, but g R^2 / G gives log M = 0.00; read as Jupiter masses it is 1.0 M_sun (error; suggests 1.0).',
       silent:

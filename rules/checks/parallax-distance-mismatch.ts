@@ -1,7 +1,7 @@
 import { COLUMN_VERDICT_MIN_ROWS, columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
 import { usableValues } from '../engine/usable.js';
 import type { Rule } from '../engine/types.js';
-import { DeferredFindings, dexAbove, dexBelow, errAt, overflowNote } from '../physics/consistency.js';
+import { DeferredFindings, dexAbove, dexBelow, errAt, heldFinding, overflowNote } from '../physics/consistency.js';
 import { LINEAR_FACTORS } from '../physics/units.js';
 import { distanceFromParallax } from '../physics/stellar.js';
 
@@ -199,7 +199,7 @@ export const parallaxDistanceMismatch: Rule = {
                 ? { column: plx.column, value: round6(plxFixed) ?? plxFixed, unit: 'mas', text: `parallax = ${fmt(plxFixed)} mas (${fx.parallax})` }
                 : { column: dist.column, value: round6(distFixed) ?? distFixed, unit: 'pc', text: `distance = ${fmt(distFixed)} pc (${fx.distance})` },
             });
-            deferred.push(factor, () => f);
+            deferred.push(factor, heldFinding(f));
             continue;
           }
           out.push(

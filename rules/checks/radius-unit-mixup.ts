@@ -40,6 +40,7 @@ const SPEC: UnitMixupSpec = {
   plausibleMin: Math.log10(0.002),
   plausibleMax: Math.log10(3000),
   typicalLog: 0,
+  shiftable: true,
 };
 
 /**
@@ -64,7 +65,7 @@ export const radiusUnitMixup: Rule = {
       catches:
         'Radii written in km, m, cm, Earth radii, Jupiter radii or au under a solar-radius header, and log R pasted into a linear column. Names the likely unit and the corrected value; one finding for the column when most of it is affected.',
       why:
-        'km, m and cm are 5.84, 8.84 and 10.84 dex above solar radii, Earth and Jupiter radii 2.04 and 0.99 dex, the au 2.33 dex below (physics-reference.md §9). The row implies a radius twice over: R = sqrt(L / (4 pi sigma Teff^4)) (0.075 dex tolerance, half the 0.15 dex luminosity-unit-mixup allows in L, plus the errors) and R = sqrt(GM / g) (half of 0.1 dex plus the errors and the batch\'s logg scatter). The declared reading must miss every expectation the row has by 5 sigma, and the chosen reading fit every one within 3; a declared value that stars can have (0.002-3000 R_sun) must also miss by 0.9 dex, or 1.5 dex where one relation is the only evidence. The flagged cell is withheld from the judging rules.',
+        'km, m and cm are 5.84, 8.84 and 10.84 dex above solar radii, Earth and Jupiter radii 2.04 and 0.99 dex, the au 2.33 dex below (physics-reference.md §9). The row implies a radius twice over: R = sqrt(L / (4 pi sigma Teff^4)) (0.075 dex tolerance, half the 0.15 dex luminosity-unit-mixup allows in L, plus the errors) and R = sqrt(GM / g) (half of 0.1 dex plus the errors and the batch\'s logg scatter). A reading is suggested when its Gaussian likelihood given these expectations is at least minLikelihoodRatio (1000) times that of the declared reading (the finding states how many times); where the declared value is one stars can have (0.002-3000 R_sun) the suggestion must also fit every expectation within 3 sigma and the declared value miss by 0.9 dex, or 1.5 dex where one relation is the only evidence. A power of ten that fits clearly better is left to decimal-shift. The flagged cell is withheld from the judging rules.',
       fires:
         'radius_Rsun = 695700 for a star with L = 1 L_sun and Teff = 5772 K: as solar radii log R = 5.84, but Stefan-Boltzmann gives log R = 0.00; read as km it is 1.0 R_sun (error; suggests 1.0).',
       silent:

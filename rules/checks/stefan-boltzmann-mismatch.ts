@@ -126,6 +126,8 @@ export const stefanBoltzmannMismatch: Rule = {
       };
       return base;
     };
+    /** The deferred verdict on one row; made here so it holds only the row's numbers (see heldFinding). */
+    const later = (base: Finding, row: SbRow, rc: string, tc: string) => (off: number) => judge(base, row, off, rc, tc);
 
     return {
       check(batch, out, stats) {
@@ -173,7 +175,7 @@ export const stefanBoltzmannMismatch: Rule = {
           });
           const rc = rad.column;
           const tc = te.column;
-          judgeRows.route(residual, k * sigma, out, (off) => judge(base, row, off, rc, tc));
+          judgeRows.route(residual, k * sigma, out, later(base, row, rc, tc));
         }
       },
       finish(out) {

@@ -1,7 +1,7 @@
 import { COLUMN_VERDICT_MIN_ROWS, columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
 import { usableValues } from '../engine/usable.js';
 import type { Rule } from '../engine/types.js';
-import { DeferredFindings, dexAbove, dexBelow, errAt, overflowNote } from '../physics/consistency.js';
+import { DeferredFindings, dexAbove, dexBelow, errAt, heldFinding, overflowNote } from '../physics/consistency.js';
 import { loggFromMassRadius } from '../physics/stellar.js';
 
 const ID = 'surface-gravity-mismatch';
@@ -164,7 +164,7 @@ export const surfaceGravityMismatch: Rule = {
                 text: low ? `${fmt(gi + SI_DEX, 3)} (the value read as log g in m s^-2, converted to cgs)` : `${fmt(gi - SI_DEX, 3)} (the value read as cgs)`,
               },
             });
-            deferred.push(low ? TAG_LOW : TAG_HIGH, () => f);
+            deferred.push(low ? TAG_LOW : TAG_HIGH, heldFinding(f));
             continue;
           }
           // What would make the row consistent if only one of its columns were wrong.

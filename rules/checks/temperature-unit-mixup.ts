@@ -35,6 +35,7 @@ const SPEC: UnitMixupSpec = {
   // central stars, about 250 000 K); physics-reference.md §6 and from memory.
   plausibleMin: Math.log10(200),
   plausibleMax: Math.log10(5e5),
+  shiftable: true,
 };
 
 /**
@@ -59,7 +60,7 @@ export const temperatureUnitMixup: Rule = {
       catches:
         'log Teff written in a kelvin column, Teff in kK, and a kelvin value in a log Teff column. Names the likely unit and the corrected value; one finding for the column when most of it is affected.',
       why:
-        'A log Teff of 3.76 read as kelvin is a 3.76 K star, 3.2 dex colder than the Sun; a value in kK is 3 dex low. Where L and R are known, each reading is compared with Teff = 5772 K (L / R^2)^(1/4) (0.0375 dex tolerance, a quarter of the 0.15 dex allowed in L, plus the errors); the declared reading must miss it by 5 sigma and the chosen one fit within 3. Without L and R only a value no star has (below 200 K or above 500 000 K) is judged: 3.3-4.8 is then read as log Teff, other small values as kK. The flagged cell is withheld from the judging rules.',
+        'A log Teff of 3.76 read as kelvin is a 3.76 K star, 3.2 dex colder than the Sun; a value in kK is 3 dex low. Where L and R are known, each reading is compared with Teff = 5772 K (L / R^2)^(1/4) (0.0375 dex tolerance, a quarter of the 0.15 dex allowed in L, plus the errors); a reading is suggested when its Gaussian likelihood is at least minLikelihoodRatio (1000) times that of the declared reading (stated in the finding), and, for a declared Teff stars can have, it fits within 3 sigma and the declared value misses by 0.9 dex (1.5 with one relation). Without L and R only a value no star has (below 200 K or above 500 000 K) is judged: 3.3-4.8 is then read as log Teff, other small values as kK. The flagged cell is withheld from the judging rules.',
       fires:
         'teff_K = 3.7613 for a star with L = 1 L_sun and R = 1 R_sun: as kelvin log Teff = 0.575, but Stefan-Boltzmann gives 3.761; read as log(K) it is 5772 K (error; suggests 5772).',
       silent:

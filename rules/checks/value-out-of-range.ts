@@ -214,6 +214,28 @@ export const valueOutOfRange: Rule = {
       return null;
     }
 
+    /**
+     * Per quantity and class, the span inside which `judge` cannot fire whatever the errors: at or
+     * inside every limit that applies (errors only ever move a value towards its range). Nearly
+     * every cell falls inside, and is passed over without a call.
+     */
+    const classCount = STAR_CLASS_NAMES.length;
+    const quiet = new Map<NumericQuantity, { lo: Float64Array; hi: Float64Array }>();
+    for (const q of JUDGED) {
+      const lo = new Float64Array(classCount);
+      const hi = new Float64Array(classCount);
+      for (let c = 0; c < classCount; c++) {
+        const limit = hard[q];
+        const range = q === 'feh' ? fehWarn : CLASS_RANGES[c as StarClass]?.[q];
+        let a = Math.max(limit?.min ?? -Infinity, range?.min ?? -Infinity);
+        if (QUANTITY_INFO[q].positive) a = Math.max(a, Number.MIN_VALUE);
+        if (q === 'mass' && BURNING.has(c)) a = Math.max(a, minMass);
+        lo[c] = a;
+        hi[c] = Math.min(limit?.max ?? Infinity, range?.max ?? Infinity);
+      }
+      quiet.set(q, { lo, hi });
+    }
+
     return {
       check(batch, out, stats) {
         const present = JUDGED.filter((q) => batch.quantities[q] !== undefined);
@@ -222,15 +244,19 @@ export const valueOutOfRange: Rule = {
           return;
         }
         const values = present.map((q) => usableValues(batch, q)!);
+        const quietLo = present.map((q) => quiet.get(q)!.lo);
+        const quietHi = present.map((q) => quiet.get(q)!.hi);
         const classes = starClasses(batch);
         for (let i = 0; i < batch.length; i++) {
           let any = false;
           verdicts.length = 0;
+          const cls = classes[i];
           for (let j = 0; j < present.length; j++) {
             const v = values[j][i];
             if (v !== v) continue;
             any = true;
-            const verdict = judge(batch, i, present[j], v, classes[i]);
+            if (v >= quietLo[j][cls] && v <= quietHi[j][cls]) continue;
+            const verdict = judge(batch, i, present[j], v, cls);
             if (verdict) verdicts.push(verdict);
           }
           if (!any) {

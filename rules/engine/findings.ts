@@ -12,14 +12,18 @@ export interface RowFindingParts {
 
 /** A finding about row `index` of `batch`, with the row, line and star id filled in. */
 export function rowFinding(batch: Batch, index: number, parts: RowFindingParts): Finding {
-  const id = batch.text.id?.values[index] ?? null;
+  return rowFindingAt(batch.input, batch.firstRow + index, batch.lines ? batch.lines[index] : null, batch.text.id?.values[index] ?? null, parts);
+}
+
+/** A finding about a row known by its number, for rules that judge rows after their batch has gone. */
+export function rowFindingAt(input: number, row: number, line: number | null, id: string | null, parts: RowFindingParts): Finding {
   return {
     rule: parts.rule,
     severity: parts.severity,
-    input: batch.input,
+    input,
     scope: 'row',
-    row: batch.firstRow + index,
-    line: batch.lines ? batch.lines[index] : null,
+    row,
+    line,
     id: id === '' ? null : id,
     columns: parts.columns,
     values: parts.values,
@@ -80,7 +84,12 @@ export function round6(x: number): number | null {
 /** One finding per reader or binder problem of `kind` in the batch, each at its own row. */
 export function problemFindings(batch: Batch, kind: InputProblem['kind'], rule: string, severity: Severity, out: FindingSink): void {
   for (const p of batch.problems) {
-    if (p.kind !== kind || p.index < 0) continue;
+    if (p.kind !== kind) continue;
+    if (p.index < 0) {
+      // A record that made no row (a quote never closed, a record past the size cap): at its line.
+      out.push({ rule, severity, input: batch.input, scope: 'row', row: null, line: p.line ?? null, id: null, columns: [], values: {}, expected: null, message: p.message, suggestion: null, cause: null, related: [] });
+      continue;
+    }
     out.push(
       rowFinding(batch, p.index, {
         rule,

@@ -1,4 +1,5 @@
 import { ConfigError, resolveParams } from './params.js';
+import type { SpillStore } from './spill.js';
 import type { Quantity } from './quantities.js';
 import {
   RuleStats,
@@ -7,6 +8,7 @@ import {
   type FindingSink,
   type ParamValue,
   type ParamValues,
+  type PrepassState,
   type Rule,
   type RuleRun,
   type Severity,
@@ -80,7 +82,20 @@ function linkRow(group: Finding[], rank: ReadonlyMap<string, number>): void {
   }
 }
 
-/** Runs the selected rules over the batches of one input. The engine knows no rule by name. */
+/** What one part of a split run hands on: its rules' end-of-input findings and accounting. */
+export interface PartResult {
+  findings: Finding[];
+  reports: RuleReport[];
+}
+
+/**
+ * Runs the selected rules over the batches of one input. The engine knows no rule by name.
+ *
+ * A run may be split in two along the rule order (`part`): one InputRun checks a batch with the
+ * first rules (in another thread, say) and hands the batch, with the cells its screening rules
+ * marked and the findings it made, to a second InputRun that checks it with the rest. Rules run in
+ * the same order on the same batches either way, so the findings are those of one run.
+ */
 export class InputRun {
   private readonly active: ActiveRule[] = [];
   private readonly reports = new Map<string, RuleReport>();
@@ -93,9 +108,15 @@ export class InputRun {
     selection: RuleSelection,
     bound: ReadonlyMap<Quantity, { column: string; unit: string }>,
     private readonly sink: FindingSink,
+    /** Only the rules at these positions of `rules` run here; all of them by default. */
+    part: { from: number; to: number } = { from: 0, to: rules.length },
+    /** Merged first-pass states by rule id (rules/engine/prepass.ts), handed to `start` as `ctx.prepass`. */
+    prepass?: ReadonlyMap<string, PrepassState>,
+    /** Where rules may keep per-row records until the end of the input (see spill.ts). */
+    spill?: SpillStore,
   ) {
     rules.forEach((r, i) => this.rank.set(r.meta.id, (r.meta.stage === 'screen' ? 0 : 100) + i));
-    for (const rule of rules) {
+    rules.forEach((rule, i) => {
       const params = resolveParams(rule.meta, selection.params?.[rule.meta.id] ?? {});
       const missing = rule.meta.needs.filter((q) => !bound.has(q));
       const report: RuleReport = {
@@ -110,15 +131,22 @@ export class InputRun {
         details: {},
       };
       this.reports.set(rule.meta.id, report);
-      if (!missing.length) this.active.push({ rule, run: rule.start({ params, bound }), stats: new RuleStats() });
-    }
+      if (!missing.length && i >= part.from && i < part.to) this.active.push({ rule, run: rule.start({ params, bound, prepass: prepass?.get(rule.meta.id), spill }), stats: new RuleStats() });
+    });
   }
 
-  processBatch(batch: Batch): void {
-    this.rows += batch.length;
+  /** The findings this run's rules make on one batch, in rule order, not yet sorted or emitted. */
+  checkBatch(batch: Batch): Finding[] {
     const buffer = new BatchBuffer();
     for (const a of this.active) a.run.check(batch, buffer, a.stats);
-    const items = buffer.items;
+    return buffer.items;
+  }
+
+  /** Checks a batch and emits its findings in row order; `earlier` are those of the rules before this part. */
+  processBatch(batch: Batch, earlier: readonly Finding[] = []): void {
+    this.rows += batch.length;
+    const own = this.checkBatch(batch);
+    const items = earlier.length ? [...earlier, ...own] : own;
     items.sort((x, y) => (x.row ?? 0) - (y.row ?? 0) || SEVERITY_ORDER[x.severity] - SEVERITY_ORDER[y.severity]);
     for (let a = 0; a < items.length; ) {
       let b = a + 1;
@@ -129,19 +157,43 @@ export class InputRun {
     for (const f of items) this.emit(f);
   }
 
-  /** Ends the input: whole-column rules judge now; returns each rule's accounting. */
-  finish(): RuleReport[] {
+  /** Ends the input for the first part of a split run: its end-of-input findings and accounting. */
+  finishPart(): PartResult {
+    const findings: Finding[] = [];
+    for (const a of this.active) a.run.finish?.({ push: (f) => findings.push(f) }, a.stats);
+    return { findings, reports: this.active.map((a) => this.account(a)) };
+  }
+
+  /**
+   * Ends the input: whole-column rules judge now; returns each rule's accounting. `earlier` is the
+   * first part's result in a split run; its findings come first, as its rules come first.
+   */
+  finish(earlier?: PartResult): RuleReport[] {
+    if (earlier) {
+      for (const f of earlier.findings) this.emit(f);
+      for (const r of earlier.reports) {
+        const mine = this.reports.get(r.id)!;
+        mine.checked = r.checked;
+        mine.skipped = r.skipped;
+        mine.details = r.details;
+      }
+    }
     for (const a of this.active) {
       a.run.finish?.({ push: (f) => this.emit(f) }, a.stats);
-      const r = this.reports.get(a.rule.meta.id)!;
-      r.checked = a.stats.checked;
-      r.skipped = Object.fromEntries(a.stats.skipped);
-      r.details = a.run.summary?.() ?? {};
+      this.account(a);
     }
     for (const r of this.reports.values()) {
       if (r.status === 'skipped') r.skipped = { [r.reason ?? 'not run']: this.rows };
     }
     return [...this.reports.values()];
+  }
+
+  private account(a: ActiveRule): RuleReport {
+    const r = this.reports.get(a.rule.meta.id)!;
+    r.checked = a.stats.checked;
+    r.skipped = Object.fromEntries(a.stats.skipped);
+    r.details = a.run.summary?.() ?? {};
+    return r;
   }
 
   private emit(f: Finding): void {

@@ -1,4 +1,5 @@
 import type { NumericQuantity, Quantity, TextQuantity } from './quantities.js';
+import type { SpillStore } from './spill.js';
 
 export type Severity = 'error' | 'warning' | 'note';
 export const SEVERITIES: readonly Severity[] = ['error', 'warning', 'note'];
@@ -62,6 +63,8 @@ export interface InputProblem {
   column: string | null;
   text: string;
   message: string;
+  /** Physical line of a record that made no row (index -1), where the format has lines. */
+  line?: number | null;
 }
 
 /**
@@ -194,6 +197,44 @@ export interface RunContext {
   params: ParamValues;
   /** Bound quantities, with the column and unit each came from. */
   bound: ReadonlyMap<Quantity, { column: string; unit: string }>;
+  /**
+   * The merged result of the rule's first pass over the whole catalog (every input and shard), for
+   * rules with a `prepass` that asked for one; undefined when no first pass ran.
+   */
+  prepass?: PrepassState;
+  /**
+   * Where a rule may keep per-row records until the end of the input instead of in memory (see
+   * spill.ts); absent in tests and plain library use, where rules fall back to MemorySpill.
+   */
+  spill?: SpillStore;
+}
+
+/** A value that survives JSON.stringify and JSON.parse unchanged. */
+export type JsonValue = null | boolean | number | string | JsonValue[] | { [key: string]: JsonValue };
+
+/**
+ * What a rule's first pass collected: a plain JSON object of bounded size (counts and sums per bin,
+ * fixed-size sketches; never one entry per row), so shards can write it and a later step merge it.
+ */
+export type PrepassState = { [key: string]: JsonValue };
+
+/** The first pass of a rule over one input: it sees every batch, then gives its state. */
+export interface Prepass {
+  observe(batch: Batch): void;
+  result(): PrepassState;
+}
+
+/**
+ * An optional first pass for rules that judge against something the catalog itself determines (a
+ * relation fitted to its own stars). The engine runs it only where `wanted` says so, merges the
+ * states of all inputs and shards with `merge`, and hands the result to `start` as `ctx.prepass`.
+ */
+export interface RulePrepass {
+  /** Whether a run with these parameters needs the first pass at all (one pass stays the default). */
+  wanted(params: ParamValues): boolean;
+  begin(ctx: RunContext): Prepass;
+  /** Combines two states; pure, associative and commutative up to floating-point rounding. */
+  merge(a: PrepassState, b: PrepassState): PrepassState;
 }
 
 export interface RuleRun {
@@ -207,4 +248,5 @@ export interface RuleRun {
 export interface Rule {
   meta: RuleMeta;
   start(ctx: RunContext): RuleRun;
+  prepass?: RulePrepass;
 }

@@ -16,7 +16,7 @@ export interface MassLuminosityRelation {
   slope(massSun: number): number;
 }
 
-interface Segment {
+export interface Segment {
   upper: number;
   a: number;
   b: number;
@@ -51,6 +51,16 @@ function piecewisePowerLaw(
  * because the paper's abstract gives the calibrated range as 0.179 <= M <= 31: its lightest
  * calibrating star must still get a verdict.
  */
+/** Eker et al. 2018 Table 4 segments: log L = a log M + b for M up to `upper` (M_sun). */
+export const EKER_2018_SEGMENTS: readonly Segment[] = [
+  { upper: 0.45, a: 2.028, b: -0.976 },
+  { upper: 0.72, a: 4.572, b: -0.102 },
+  { upper: 1.05, a: 5.743, b: -0.007 },
+  { upper: 2.4, a: 4.329, b: 0.01 },
+  { upper: 7.0, a: 3.967, b: 0.093 },
+  { upper: 31, a: 2.865, b: 1.105 },
+];
+
 export const EKER_2018: MassLuminosityRelation = piecewisePowerLaw(
   {
     id: 'eker2018',
@@ -59,14 +69,7 @@ export const EKER_2018: MassLuminosityRelation = piecewisePowerLaw(
     minMass: 0.179,
     maxMass: 31,
   },
-  [
-    { upper: 0.45, a: 2.028, b: -0.976 },
-    { upper: 0.72, a: 4.572, b: -0.102 },
-    { upper: 1.05, a: 5.743, b: -0.007 },
-    { upper: 2.4, a: 4.329, b: 0.01 },
-    { upper: 7.0, a: 3.967, b: 0.093 },
-    { upper: 31, a: 2.865, b: 1.105 },
-  ],
+  EKER_2018_SEGMENTS,
   true,
 );
 

@@ -1,4 +1,5 @@
 import { CLASSIC, EKER_2018, TOUT_1996, type MassLuminosityRelation } from './mass-luminosity.js';
+import { calibrationSegment, type CatalogFit } from './calibration.js';
 import { TOUT_MAX_Z, TOUT_MIN_Z, metallicityFromFeH, toutZamsLuminosity } from './zams.js';
 
 /**
@@ -17,9 +18,18 @@ export interface RelationVerdictInput {
   scatter: number;
   /** Dex above logL that a normal main-sequence star may reach (0 for a mean relation). */
   brightAllowance: number;
+  /**
+   * Scatter for a star that states no measurement error (dex): a catalog's own fit knows its
+   * whole spread, errors included, and uses it there; NaN (or absent) means use `scatter`.
+   */
+  scatterIfNoErrors?: number;
 }
 
-export const RELATION_CHOICES = ['default', 'eker2018', 'classic', 'tout1996'] as const;
+/**
+ * `catalog` is the catalog's own robust fit (see calibration.ts); it needs a first pass, and where
+ * none ran (or a segment has too few stars) it judges as `default` does.
+ */
+export const RELATION_CHOICES = ['default', 'eker2018', 'classic', 'tout1996', 'catalog'] as const;
 export type RelationChoice = (typeof RELATION_CHOICES)[number];
 
 /**
@@ -71,6 +81,7 @@ function fill(out: RelationVerdictInput, rel: MassLuminosityRelation | null, m: 
   out.slope = rel.slope(m);
   out.scatter = scatter;
   out.brightAllowance = allowance;
+  out.scatterIfNoErrors = NaN;
   return true;
 }
 
@@ -89,13 +100,33 @@ export function relationAt(choice: RelationChoice, m: number, out: RelationVerdi
     case 'tout1996':
       return fill(out, TOUT_1996, m, ZAMS_FAINT_SCATTER, MS_BRIGHTENING_DEX);
     case 'default':
+    case 'catalog':
       if (m > EKER_2018.minMass && m <= EKER_2018.maxMass) return fill(out, EKER_2018, m, ekerScatter(m), 0);
       return fill(out, TOUT_1996, m, ZAMS_FAINT_SCATTER, MS_BRIGHTENING_DEX);
   }
 }
 
+/**
+ * The catalog's own fit at mass `m`: inside 0.179-31 M_sun the fitted segment with its intrinsic
+ * scatter (and its whole robust scatter for stars that state no error), where a segment had too few
+ * stars the published one; outside, the Tout ZAMS bound as `default` has it.
+ */
+export function catalogRelationAt(fit: CatalogFit, m: number, out: RelationVerdictInput): boolean {
+  const k = calibrationSegment(m);
+  const seg = k >= 0 ? fit.segments[k] : undefined;
+  if (!seg || seg.mode === 'published') return relationAt('default', m, out);
+  out.relation = 'catalog';
+  out.logL = seg.slope * Math.log10(m) + seg.intercept;
+  out.slope = seg.slope;
+  out.scatter = seg.intrinsicScatterDex;
+  out.brightAllowance = 0;
+  out.scatterIfNoErrors = Math.max(seg.scatterDex, seg.intrinsicScatterDex);
+  return true;
+}
+
 export const RELATION_NAMES: Record<string, string> = {
   'tout1996-feh': "Tout et al. 1996 ZAMS at the star's [Fe/H]",
+  catalog: "the catalog's own robust fit (Eker 2018 break points)",
   [EKER_2018.id]: EKER_2018.name,
   [CLASSIC.id]: CLASSIC.name,
   [TOUT_1996.id]: TOUT_1996.name,
@@ -120,5 +151,6 @@ export function metallicityZamsAt(m: number, feh: number, out: RelationVerdictIn
   out.slope = TOUT_1996.slope(m);
   out.scatter = ZAMS_FAINT_SCATTER;
   out.brightAllowance = MS_BRIGHTENING_DEX;
+  out.scatterIfNoErrors = NaN;
   return true;
 }

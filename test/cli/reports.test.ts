@@ -144,3 +144,15 @@ describe('HTML report', () => {
     expect((page.match(/<svg/g) ?? []).length).toBeGreaterThanOrEqual(2);
   });
 });
+
+describe('terminal output', () => {
+  it('shows control characters from the catalog as escapes, so an id cannot rewrite the screen', () => {
+    const dir = tempDir();
+    const path = join(dir, 'hostile.csv');
+    writeFileSync(path, 'star_id,mass_Msun,lum_Lsun\n"\x1b[2J\x1b[31mevil\x07",1,1\n"\x1b[2J\x1b[31mevil\x07",1,1\n');
+    const r = cli(['check', path, '--fail-on', 'never']);
+    expect(r.code).toBe(0);
+    expect(r.stdout).not.toMatch(/[\x00-\x08\x0b-\x1f\x7f]/);
+    expect(r.stdout).toContain('\\x1b[2J\\x1b[31mevil\\x07');
+  });
+});

@@ -9,11 +9,12 @@ import { REPO, cli, tempDir } from '../helpers/cli.js';
 const GOLDEN = join(REPO, 'test/fixtures/golden');
 const update = process.env.UPDATE_GOLDEN === '1';
 
-/** Drops what differs from run to run and machine to machine: the time and absolute paths. */
+/** Drops what differs from run to run and machine to machine: the time, what the run cost, absolute paths. */
 function normalise(doc: Record<string, unknown>): unknown {
   return JSON.parse(
     JSON.stringify(doc, (k, v) => {
       if (k === 'createdAt') return '<time>';
+      if (k === 'cost') return '<cost>';
       if (k === 'SRCROOT') return { uri: '<repository>' };
       return v;
     }),

@@ -6,6 +6,7 @@
  * any false match is about 3e-4.
  */
 import { columnFinding } from '../../engine/findings.js';
+import { MemorySpill, type SpillLog, type SpillStore } from '../../engine/spill.js';
 import type { Batch, Finding, FindingSink, RuleStats, TextColumn } from '../../engine/types.js';
 
 const f64 = new Float64Array(1);
@@ -214,10 +215,11 @@ function growU32(a: Uint32Array, n: number): Uint32Array {
 }
 
 /**
- * The repeats one duplicate rule met in an input, and the row findings it holds back until the
- * end: a table where repeats are rare gets each repeated row listed; one where they are common
- * (several rows per star by design) gets one note and no listing. Bounded: at most `cap` findings
- * are held.
+ * The repeats one duplicate rule met in an input, and the row findings it lists: a table where
+ * repeats are rare gets each repeated row listed; one where they are common (several rows per
+ * star by design) gets one note and no listing. Repeats may be recorded in any order (the key log
+ * replays one partition at a time); what is listed is the first `cap` by row, and the counts are
+ * those of a pass in row order. Bounded: at most twice `cap` findings are held at once.
  */
 export class RepeatLog {
   /** Rows judged (with a key). */
@@ -226,28 +228,35 @@ export class RepeatLog {
   repeats = 0;
   /** Distinct keys seen on two or more rows. */
   keysRepeated = 0;
-  /** The most rows one key had, and that key's text. */
+  /** The most rows one key had, and that key's text (the first key to get there, in row order). */
   maxCount = 0;
   maxKey = '';
-  /** Keys not tracked once the set was full. */
-  untracked = 0;
-  readonly held: Finding[] = [];
+  private maxRow = Infinity;
+  private readonly firstRows: FirstByRow;
 
   constructor(
     private readonly cap: number,
     /** Repeats are listed while at most this fraction of judged rows (or at most 10 rows) repeat. */
     private readonly listFraction: number,
-  ) {}
+  ) {
+    this.firstRows = new FirstByRow(cap);
+  }
 
-  /** Records a repeat whose key now has `count` rows; holds `finding` while under the cap. */
-  repeat(count: number, key: string, finding: () => Finding): void {
+  /** Records a repeat at `row` whose key now has `count` rows; `finding` is built only while it may be listed. */
+  repeat(count: number, key: string, row: number, finding: () => Finding): void {
     this.repeats++;
     if (count === 2) this.keysRepeated++;
-    if (count > this.maxCount) {
+    if (count > this.maxCount || (count === this.maxCount && row < this.maxRow)) {
       this.maxCount = count;
       this.maxKey = key;
+      this.maxRow = row;
     }
-    if (this.held.length < this.cap) this.held.push(finding());
+    this.firstRows.offer(row, finding);
+  }
+
+  /** The listed findings: the first `cap` repeats by row. */
+  get held(): readonly Finding[] {
+    return this.firstRows.list();
   }
 
   /** How the listed rows are described: all of them, or the first `cap` when there were more. */
@@ -260,22 +269,11 @@ export class RepeatLog {
     return this.repeats <= 10 || this.repeats <= this.listFraction * this.rows;
   }
 
-  /**
-   * The notes that close an input: the counts, when anything repeated (message from `text`), and
-   * the rows left unchecked once the set was full.
-   */
-  notes(rule: string, input: number, column: string, text: (log: this) => string, maxKeys: number): Finding[] {
-    const columns = column ? [column] : [];
-    const note = (values: Finding['values'], message: string) => columnFinding({ input, rule, severity: 'note', columns, values, message });
-    const out: Finding[] = [];
-    if (this.repeats > 0) {
-      const values = { rowsCompared: this.rows, rowsRepeating: this.repeats, keysOnSeveralRows: this.keysRepeated, mostRowsForOneKey: this.maxCount };
-      out.push(note(values, `${column ? `${column}: ` : ''}${text(this)}`));
-    }
-    if (this.untracked > 0) {
-      out.push(note({ untrackedRows: this.untracked, maxKeys }, `more than ${maxKeys} distinct keys: ${this.untracked} rows met after that were not checked for repeats (raise the rule's cap parameter)`));
-    }
-    return out;
+  /** The note that closes an input when anything repeated (message from `text`). */
+  notes(rule: string, input: number, column: string, text: (log: this) => string): Finding[] {
+    if (this.repeats === 0) return [];
+    const values = { rowsCompared: this.rows, rowsRepeating: this.repeats, keysOnSeveralRows: this.keysRepeated, mostRowsForOneKey: this.maxCount };
+    return [columnFinding({ input, rule, severity: 'note', columns: column ? [column] : [], values, message: `${column ? `${column}: ` : ''}${text(this)}` })];
   }
 
   /** Pushes the held findings when they are listed; returns whether they were. */
@@ -284,6 +282,122 @@ export class RepeatLog {
     for (const f of this.held) out.push(f);
     return true;
   }
+}
+
+/**
+ * The row findings with the lowest rows among those offered in any order, at most `cap`: what a
+ * pass in row order that stops listing after `cap` would have listed. Holds at most 2 cap.
+ */
+export class FirstByRow {
+  private held: Finding[] = [];
+  /** Rows after this one can no longer be among the first `cap`. */
+  private cutoff = Infinity;
+
+  constructor(private readonly cap: number) {}
+
+  /** `build` is called only when the row may still be listed. */
+  offer(row: number, build: () => Finding): void {
+    if (row > this.cutoff) return;
+    this.held.push(build());
+    if (this.held.length >= 2 * this.cap) this.trim();
+  }
+
+  private trim(): void {
+    const held = this.held;
+    held.sort((a, b) => a.row! - b.row!);
+    if (held.length >= this.cap) {
+      held.length = this.cap;
+      this.cutoff = held[this.cap - 1].row!;
+    }
+  }
+
+  /** The kept findings in row order. */
+  list(): readonly Finding[] {
+    this.trim();
+    return this.held;
+  }
+}
+
+/** Partitions of a key log: at 10M rows each holds about 160 000 rows (5 MB) when it is replayed. */
+export const KEY_LOG_PARTITIONS = 64;
+const KEY_FIELDS = 4;
+
+/**
+ * The keys of one input's rows (64-bit fingerprints, with the row, line, a text and `extra`
+ * numbers per row), kept in a spill log while the batches stream by and replayed at the end one
+ * partition at a time. Keys go to partitions by hash, so equal keys meet in the same partition,
+ * and replaying a partition in row order through a fresh set gives each key exactly the events a
+ * single in-memory pass would. Memory: one partition's rows at a time, whatever the row count.
+ */
+export class KeyLog {
+  private readonly log: SpillLog;
+  private readonly rec: Float64Array;
+  /** Distinct keys, known after `replay`. */
+  distinct = 0;
+
+  constructor(
+    spill: SpillStore | undefined,
+    readonly extra = 0,
+  ) {
+    this.log = (spill ?? new MemorySpill()).open(KEY_FIELDS + extra, KEY_LOG_PARTITIONS);
+    this.rec = new Float64Array(KEY_FIELDS + extra);
+  }
+
+  /** The row's key (hi, lo) with its row, line, text and extra numbers (read from `extras` at `at`). */
+  add(hi: number, lo: number, row: number, line: number | null, text: string | null, extras?: Float64Array): void {
+    const r = this.rec;
+    r[0] = hi;
+    r[1] = lo;
+    r[2] = row;
+    r[3] = line === null ? NaN : line;
+    if (extras) for (let k = 0; k < this.extra; k++) r[KEY_FIELDS + k] = extras[k];
+    this.log.append(lo & (KEY_LOG_PARTITIONS - 1), r, text);
+  }
+
+  /**
+   * Replays every partition: `visit` gets, per row in row order within its partition, the entry
+   * number of its key in that partition, whether the row is the key's first, the key's first row
+   * and its count so far, and the row's record (row at 2, line at 3, extras from 4) and text.
+   * Closes the log.
+   */
+  replay(visit: (e: KeyEvent) => void): void {
+    const ev: KeyEvent = { entry: 0, first: true, firstRow: 0, count: 0, records: new Float64Array(0), at: 0, text: null };
+    this.distinct = 0;
+    const w = KEY_FIELDS + this.extra;
+    for (let p = 0; p < KEY_LOG_PARTITIONS; p++) {
+      const { records, texts } = this.log.take(p);
+      const n = records.length / w;
+      if (n === 0) continue;
+      const set = new FingerprintSet(Infinity, 2 * n);
+      ev.records = records;
+      for (let k = 0; k < n; k++) {
+        const at = k * w;
+        const e = set.add(records[at], records[at + 1], records[at + 2]);
+        ev.entry = e;
+        ev.first = set.added;
+        ev.firstRow = set.firstRow[e];
+        ev.count = set.count[e];
+        ev.at = at;
+        ev.text = texts[k];
+        visit(ev);
+      }
+      this.distinct += set.size;
+    }
+    this.log.close();
+  }
+}
+
+/** One row as `KeyLog.replay` hands it over (reused from row to row). */
+export interface KeyEvent {
+  /** Entry number of the row's key within its partition (0, 1, 2 ... in order of first sight). */
+  entry: number;
+  first: boolean;
+  firstRow: number;
+  count: number;
+  records: Float64Array;
+  /** Where the row's record starts in `records`: row at +2, line at +3 (NaN for none), extras from +4. */
+  at: number;
+  text: string | null;
 }
 
 /**

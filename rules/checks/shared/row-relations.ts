@@ -5,13 +5,13 @@
  * (decimal-shift, swapped-columns) set the row's values once, change one, and ask again. One
  * instance per rule run, reused row after row: no object per row.
  */
-import type { Batch, ParamSpec, Reference } from '../../engine/types.js';
+import type { Batch, ParamSpec, QuantityColumn, Reference } from '../../engine/types.js';
 import { usableValues } from '../../engine/usable.js';
 import { StarClass } from '../../physics/classify.js';
 import { LOGG_SUN, TEFF_SUN_K } from '../../physics/constants.js';
 import { relationAt, type RelationVerdictInput } from '../../physics/relation-choice.js';
 import { loggFromMassRadius } from '../../physics/stellar.js';
-import { columnDexErr, meanErr } from './unit-readings.js';
+
 
 const LOG_TEFF_SUN = Math.log10(TEFF_SUN_K);
 
@@ -103,11 +103,52 @@ export class RowRelations {
   ll = NaN;
   lt = NaN;
   g = NaN;
-  sm = 0;
-  sr = 0;
-  sl = 0;
-  st = 0;
-  sg = 0;
+  /**
+   * Errors in dex below and above each value (0 where none is stated). A relation's residual is
+   * judged with the error of each cell on the side that would move the row towards the relation:
+   * a luminosity above 4 pi R^2 sigma Teff^4 with its lower error, R and Teff with their upper ones.
+   */
+  smLo = 0;
+  smHi = 0;
+  srLo = 0;
+  srHi = 0;
+  slLo = 0;
+  slHi = 0;
+  stLo = 0;
+  stHi = 0;
+  sgLo = 0;
+  sgHi = 0;
+  /** The symmetric view of each error: reading gives the mean of the two sides, writing sets both. */
+  get sm(): number {
+    return (this.smLo + this.smHi) / 2;
+  }
+  set sm(v: number) {
+    this.smLo = this.smHi = v;
+  }
+  get sr(): number {
+    return (this.srLo + this.srHi) / 2;
+  }
+  set sr(v: number) {
+    this.srLo = this.srHi = v;
+  }
+  get sl(): number {
+    return (this.slLo + this.slHi) / 2;
+  }
+  set sl(v: number) {
+    this.slLo = this.slHi = v;
+  }
+  get st(): number {
+    return (this.stLo + this.stHi) / 2;
+  }
+  set st(v: number) {
+    this.stLo = this.stHi = v;
+  }
+  get sg(): number {
+    return (this.sgLo + this.sgHi) / 2;
+  }
+  set sg(v: number) {
+    this.sgLo = this.sgHi = v;
+  }
   /** Apply the mass-luminosity relation (only for stars known to be on the main sequence). */
   mainSequence = false;
   /** Extra gravity scatter of the batch, in dex (see gravityScatter). */
@@ -116,7 +157,8 @@ export class RowRelations {
 
   reset(): void {
     this.lm = this.lr = this.ll = this.lt = this.g = NaN;
-    this.sm = this.sr = this.sl = this.st = this.sg = 0;
+    this.smLo = this.smHi = this.srLo = this.srHi = this.slLo = this.slHi = 0;
+    this.stLo = this.stHi = this.sgLo = this.sgHi = 0;
     this.mainSequence = false;
   }
 
@@ -186,15 +228,27 @@ export class RowRelations {
   private sbResidual(): number {
     return this.ll - 2 * this.lr - 4 * (this.lt - LOG_TEFF_SUN);
   }
-  private sbSigma(): number {
-    return Math.sqrt(SB_FLOOR_DEX * SB_FLOOR_DEX + this.sl * this.sl + 4 * this.sr * this.sr + 16 * this.st * this.st);
+  /**
+   * Sigma of the Stefan-Boltzmann residual log L - 2 log R - 4 log(Teff/Teff_sun). `side` > 0
+   * (L too high for R and Teff): L's lower error, R's and Teff's upper; < 0 the other sides; 0 the
+   * mean of both sides, for the inverse-variance weights of `expectedFor`.
+   */
+  private sbSigma(side = 0): number {
+    const sl = side > 0 ? this.slLo : side < 0 ? this.slHi : this.sl;
+    const sr = side > 0 ? this.srHi : side < 0 ? this.srLo : this.sr;
+    const st = side > 0 ? this.stHi : side < 0 ? this.stLo : this.st;
+    return Math.sqrt(SB_FLOOR_DEX * SB_FLOOR_DEX + sl * sl + 4 * sr * sr + 16 * st * st);
   }
   private gravityResidual(): number {
     return this.g - LOGG_SUN - this.lm + 2 * this.lr;
   }
-  private gravitySigma(): number {
+  /** Sigma of logg - (4.438 + log M - 2 log R); `side` > 0 (logg too high): logg's lower error, M's upper, R's lower. */
+  private gravitySigma(side = 0): number {
     const s = this.gravityScatter;
-    return Math.sqrt(GRAVITY_FLOOR_DEX * GRAVITY_FLOOR_DEX + s * s + this.sg * this.sg + this.sm * this.sm + 4 * this.sr * this.sr);
+    const sg = side > 0 ? this.sgLo : side < 0 ? this.sgHi : this.sg;
+    const sm = side > 0 ? this.smHi : side < 0 ? this.smLo : this.sm;
+    const sr = side > 0 ? this.srLo : side < 0 ? this.srHi : this.sr;
+    return Math.sqrt(GRAVITY_FLOOR_DEX * GRAVITY_FLOOR_DEX + s * s + sg * sg + sm * sm + 4 * sr * sr);
   }
 
   /**
@@ -206,17 +260,22 @@ export class RowRelations {
     const has = Number.isFinite;
     let z = 0;
     if (bits & Relation.StefanBoltzmann && has(this.ll) && has(this.lr) && has(this.lt)) {
-      z = Math.max(z, Math.abs(this.sbResidual()) / this.sbSigma());
+      const res = this.sbResidual();
+      z = Math.max(z, Math.abs(res) / this.sbSigma(res));
     }
     if (bits & Relation.Gravity && has(this.g) && has(this.lm) && has(this.lr)) {
-      z = Math.max(z, Math.abs(this.gravityResidual()) / this.gravitySigma());
+      const res = this.gravityResidual();
+      z = Math.max(z, Math.abs(res) / this.gravitySigma(res));
     }
     if (bits & Relation.MassLuminosity && this.mainSequence && has(this.lm) && has(this.ll)) {
       const rel = this.rel;
       if (relationAt('default', Math.pow(10, this.lm), rel)) {
         let resid = this.ll - rel.logL;
         if (resid > 0) resid = Math.max(0, resid - rel.brightAllowance);
-        const sigma = Math.sqrt(rel.scatter * rel.scatter + this.sl * this.sl + rel.slope * rel.slope * this.sm * this.sm);
+        // Above the relation: L's lower error and M's upper error face it.
+        const sl = resid > 0 ? this.slLo : this.slHi;
+        const sm = resid > 0 ? this.smHi : this.smLo;
+        const sigma = Math.sqrt(rel.scatter * rel.scatter + sl * sl + rel.slope * rel.slope * sm * sm);
         z = Math.max(z, Math.abs(resid) / sigma);
       } else {
         // A shifted mass outside every relation's range cannot be judged consistent.
@@ -377,24 +436,50 @@ export class RowInputs {
     const t = this.teff ? this.teff[i] : NaN;
     if (m > 0) {
       rr.lm = Math.log10(m);
-      rr.sm = columnDexErr(q.mass!, i);
+      rr.smLo = sideDexErr(q.mass!, i, false);
+      rr.smHi = sideDexErr(q.mass!, i, true);
     }
     if (r > 0) {
       rr.lr = Math.log10(r);
-      rr.sr = columnDexErr(q.radius!, i);
+      rr.srLo = sideDexErr(q.radius!, i, false);
+      rr.srHi = sideDexErr(q.radius!, i, true);
     }
     if (l > 0) {
       rr.ll = Math.log10(l);
-      rr.sl = columnDexErr(q.luminosity!, i);
+      rr.slLo = sideDexErr(q.luminosity!, i, false);
+      rr.slHi = sideDexErr(q.luminosity!, i, true);
     }
     if (t > 0) {
       rr.lt = Math.log10(t);
-      rr.st = columnDexErr(q.teff!, i);
+      rr.stLo = sideDexErr(q.teff!, i, false);
+      rr.stHi = sideDexErr(q.teff!, i, true);
     }
     const g = this.logg ? this.logg[i] : NaN;
     if (Number.isFinite(g)) {
       rr.g = g;
-      rr.sg = meanErr(q.logg!.errLo, q.logg!.errHi, i);
+      const col = q.logg!;
+      // A one-sided error stands for both sides, as meanErr reads it.
+      const lo = col.errLo ? col.errLo[i] : NaN;
+      const hi = col.errHi ? col.errHi[i] : NaN;
+      rr.sgLo = Number.isFinite(lo) ? lo : Number.isFinite(hi) ? hi : 0;
+      rr.sgHi = Number.isFinite(hi) ? hi : Number.isFinite(lo) ? lo : 0;
     }
   }
+}
+
+/**
+ * The error of row i of a linear quantity in dex on one side (`upper` or lower): the log errors
+ * where the column keeps them (luminosity), else the error over the value (first order). Where only
+ * one side is stated it stands for both, as meanErr reads it; 0 where none is.
+ */
+export function sideDexErr(col: QuantityColumn, i: number, upper: boolean): number {
+  const lo = col.logErrLo || col.logErrHi ? col.logErrLo : col.errLo;
+  const hi = col.logErrLo || col.logErrHi ? col.logErrHi : col.errHi;
+  const a = lo ? lo[i] : NaN;
+  const b = hi ? hi[i] : NaN;
+  const e = upper ? (Number.isFinite(b) ? b : a) : Number.isFinite(a) ? a : b;
+  if (!Number.isFinite(e) || !(e > 0)) return 0;
+  if (col.logErrLo || col.logErrHi) return e;
+  const v = col.value[i];
+  return v > 0 ? e / (v * Math.LN10) : 0;
 }

@@ -10,6 +10,7 @@ import { QUANTITY_INFO } from '../../engine/quantities.js';
 import { isUnusable, markUnusable } from '../../engine/usable.js';
 import type { Batch, Finding, FindingSink, ParamSpec, ParamValues, QuantityColumn, RuleStats } from '../../engine/types.js';
 import { L_SUN_W } from '../../physics/constants.js';
+import { log10GaussianRatio, normalUpperTail, poissonUpperTail } from '../../physics/statistics.js';
 import { LINEAR_FACTORS } from '../../physics/units.js';
 
 /**
@@ -113,13 +114,40 @@ export interface UnitMixupSpec {
   plausibleMax: number;
   /** With nothing else to judge by: the plausible reading nearest this wins; unset, the first in list order. */
   typicalLog?: number;
+  /**
+   * The quantity is one decimal-shift judges (a linear M, R, L or Teff): a reading is not claimed
+   * where the declared value moved by one decimal place fits the row clearly better
+   * (by more than 0.5 sigma), so a slipped decimal point is left to decimal-shift rather than read
+   * as a coincidental unit (0.096 M_sun as log M = 0.096, that is 1.25 M_sun). Not where the column
+   * has already shown that reading on many rows (at least 10, and 2 % of those judged): a column
+   * that mixes units says which.
+   */
+  shiftable?: boolean;
 }
+
+/** A unit reading that fits within this many sigma of the best power-of-ten shift keeps precedence (decimal-shift's UNIT_MARGIN_SIGMA). */
+const SHIFT_MARGIN_SIGMA = 0.5;
+/**
+ * Only one place either way competes with the readings: the common slip. Two or three places
+ * coincide too often with a log value near 0 read as linear (0.014 is log L = 0.014, or 1.4 / 100),
+ * where the column's other rows usually say which.
+ */
+const SHIFTS = [-1, 1] as const;
+/** A reading already chosen for this many rows, and this share of those judged, is the column's habit. */
+const COLUMN_HABIT_MIN = 10;
+const COLUMN_HABIT_SHARE = 0.02;
 
 /** Parameters every unit mix-up screen has; a rule may add its own after them. */
 export const MIXUP_PARAMS: readonly ParamSpec[] = [
-  { name: 'fireSigma', type: 'number', default: 5, min: 1, description: 'The declared reading must miss the star by more than this many sigma.' },
-  { name: 'acceptSigma', type: 'number', default: 3, min: 0.5, description: 'The suggested reading must fit within this many sigma.' },
-  { name: 'minGainDex', type: 'number', default: 0.5, min: 0, description: 'The suggested reading must fit better by at least this many dex.' },
+  {
+    name: 'minLikelihoodRatio',
+    type: 'number',
+    default: 1000,
+    min: 1,
+    description:
+      "The suggested unit must be at least this many times more probable than the declared one given the row's other values (Gaussian likelihood of each reading's residuals).",
+  },
+  { name: 'acceptSigma', type: 'number', default: 3, min: 0.5, description: 'Where the declared value is one stars can have, the suggested reading must also fit every expectation within this many sigma.' },
   { name: 'columnFraction', type: 'number', default: 0.5, min: 0, max: 1, description: 'Above this fraction of judged rows, one finding is made for the whole column.' },
 ];
 
@@ -148,6 +176,12 @@ export const MIN_MISS_PARAMS: readonly ParamSpec[] = [
 /** Most rows kept for the per-row listing while deciding whether the whole column is affected. */
 const ROW_BUFFER_CAP = 20_000;
 const MAX_BASES = 4;
+/** Fewer plausible declared values than this in a batch give no column distribution to weigh readings by. */
+const COLUMN_PRIOR_MIN_ROWS = 20;
+/** The column distribution is never taken narrower than this (dex), so one catalog's spread cannot rule a reading out. */
+const COLUMN_PRIOR_MIN_SIGMA = 0.5;
+/** Chance terms beyond this many sigma add less than 1e-19 per row and are not summed. */
+const CHANCE_Z_MAX = 9;
 
 /** Mean of the lower and upper error of row i, whichever exist; 0 when neither does. */
 export function meanErr(lo: Float64Array | null, hi: Float64Array | null, i: number): number {
@@ -204,9 +238,8 @@ export class Expectations {
  * column verdict at the end.
  */
 export class UnitMixupScreen {
-  readonly fireSigma: number;
+  readonly minLog10Ratio: number;
   readonly acceptSigma: number;
-  readonly minGain: number;
   readonly columnFraction: number;
   /** See MIN_MISS_PARAMS; 0 for a rule without those parameters. */
   readonly minMiss: number;
@@ -214,14 +247,36 @@ export class UnitMixupScreen {
   readonly declaredUnit: string;
   /** Index of the declared unit among the readings, -1 when it is none of them. */
   readonly declaredIndex: number;
+  /** Whether power-of-ten shifts of the declared value compete with the readings (spec.shiftable and a linear declared unit). */
+  private readonly shiftable: boolean;
+  /** Rows left to decimal-shift because a power of ten fits better than any unit. */
+  private leftToShift = 0;
   /** Set by `decide`: distance of the chosen reading from the primary expectation (dex; NaN without one). */
   bestDist = NaN;
+  /**
+   * Set by `decide`: log10 of how many times more probable the chosen reading is than the declared
+   * one given the row's expectations (Infinity when the declared reading is impossible; NaN when
+   * the row had no expectation), and the next most probable reading with its log10 ratio to the
+   * chosen one (-1 and NaN when there is none).
+   */
+  log10Ratio = NaN;
+  runnerUp = -1;
+  runnerUpLog10Ratio = NaN;
   judged = 0;
   fired = 0;
+  /** Rows judged against at least one expectation, and those whose declared reading misses the first by more than 3 sigma. */
+  private withExpectation = 0;
+  private beyond3 = 0;
+  /** Expected number of rows that fire by chance if every declared value were right and the residuals Gaussian. */
+  private chance = 0;
   private readonly firedByUnit: number[];
   private readonly buffer: Finding[] = [];
   private input = 0;
   private column = '';
+  private batch: Batch | undefined;
+  private priorBatch: Batch | null = null;
+  private priorCenter = NaN;
+  private priorSigma = NaN;
 
   constructor(
     readonly spec: UnitMixupSpec,
@@ -229,14 +284,14 @@ export class UnitMixupScreen {
     declaredUnit: string | undefined,
     private readonly skipFlagged = true,
   ) {
-    this.fireSigma = params.fireSigma as number;
+    this.minLog10Ratio = Math.log10(params.minLikelihoodRatio as number);
     this.acceptSigma = params.acceptSigma as number;
-    this.minGain = params.minGainDex as number;
     this.columnFraction = params.columnFraction as number;
     this.minMiss = typeof params.minMissDex === 'number' ? params.minMissDex : 0;
-    this.minMissSingle = typeof params.minMissSingleDex === 'number' ? params.minMissSingleDex : 0;
+    this.minMissSingle = typeof params.minMissSingleDex === 'number' ? params.minMissSingleDex : this.minMiss;
     this.declaredUnit = declaredUnit ?? spec.readings[0].unit;
     this.declaredIndex = spec.readings.findIndex((r) => r.unit === this.declaredUnit);
+    this.shiftable = spec.shiftable === true && this.declaredIndex >= 0 && !spec.readings[this.declaredIndex].log;
     this.firedByUnit = new Array<number>(spec.readings.length).fill(0);
   }
 
@@ -278,71 +333,175 @@ export class UnitMixupScreen {
   begin(batch: Batch, column: string): void {
     this.input = batch.input;
     this.column = column;
+    this.batch = batch;
+  }
+
+  private plausible(k: number, lg: number): boolean {
+    const r = this.spec.readings[k];
+    return lg >= (r.plausibleMin ?? this.spec.plausibleMin) && lg <= (r.plausibleMax ?? this.spec.plausibleMax);
   }
 
   /**
-   * The reading that explains the cell, or -1. With expectations: the declared reading must miss
-   * every one of them by more than fireSigma, and the chosen one fit every one within acceptSigma
-   * and be at least minGain dex closer. Without: only a declared value no star can have is judged,
-   * and a reading inside the plausible range is taken.
+   * The reading that explains the cell, or -1.
+   *
+   * With expectations (what the row's other values imply, each with its sigma): every plausible
+   * reading k gets the Gaussian log-likelihood -sum_j (x_k - e_j)^2 / (2 s_j^2); the most probable
+   * one is suggested when it is at least minLikelihoodRatio times more probable than the declared
+   * reading. Where the declared value is one stars can have, the suggestion must also fit every
+   * expectation within acceptSigma, and the declared value miss by minMissDex (heavy tails of real
+   * catalogs, which a Gaussian does not have, make odd stars look like slips otherwise). A declared
+   * value no star can have is explained by the most probable stellar reading however well it fits.
+   *
+   * Without expectations, only a declared value no star can have is judged, and the plausible
+   * reading nearest the column's own values (their median and spread in the batch) is taken.
    */
   decide(raw: number, declaredLog: number, e: Expectations): number {
     const { readings } = this.spec;
     this.bestDist = NaN;
+    this.log10Ratio = NaN;
+    this.runnerUp = -1;
+    this.runnerUpLog10Ratio = NaN;
+    const declaredPlausible = Number.isFinite(declaredLog) && declaredLog >= this.spec.plausibleMin && declaredLog <= this.spec.plausibleMax;
     if (e.n > 0) {
-      let declaredDist = Infinity;
-      if (Number.isFinite(declaredLog)) {
+      this.withExpectation++;
+      if (Number.isFinite(declaredLog) && Math.abs(declaredLog - e.value[0]) > 3 * e.sigma[0]) this.beyond3++;
+      const chi = (lg: number) => {
+        let c = 0;
         for (let j = 0; j < e.n; j++) {
-          const d = Math.abs(declaredLog - e.value[j]);
-          if (d <= this.fireSigma * e.sigma[j]) return -1;
-          if (d < declaredDist) declaredDist = d;
+          const d = (lg - e.value[j]) / e.sigma[j];
+          c += d * d;
         }
-        if (declaredDist < (e.n === 1 ? this.minMissSingle : this.minMiss) && declaredLog >= this.spec.plausibleMin && declaredLog <= this.spec.plausibleMax) return -1;
-      }
+        return c;
+      };
+      let w = 0;
+      for (let j = 0; j < e.n; j++) w += 1 / (e.sigma[j] * e.sigma[j]);
       let best = -1;
-      let bestZ = Infinity;
+      let bestChi = Infinity;
+      let second = -1;
+      let secondChi = Infinity;
       for (let k = 0; k < readings.length; k++) {
         if (k === this.declaredIndex) continue;
         const lg = readingLog(readings[k], raw);
         // A reading no star can have is never the explanation, however well it matches an
         // expectation that another broken cell in the row may have thrown off.
-        if (!(lg >= (readings[k].plausibleMin ?? this.spec.plausibleMin) && lg <= (readings[k].plausibleMax ?? this.spec.plausibleMax))) continue;
-        let z = 0;
-        for (let j = 0; j < e.n; j++) z = Math.max(z, Math.abs(lg - e.value[j]) / e.sigma[j]);
-        if (z < bestZ) {
-          bestZ = z;
+        if (!this.plausible(k, lg)) continue;
+        if (declaredPlausible) {
+          // Chance: the probability that Gaussian residuals of a right declared value would make
+          // this reading minLikelihoodRatio times more probable (one combined expectation).
+          const delta = Math.abs(lg - declaredLog) * Math.sqrt(w);
+          const zc = (this.minLog10Ratio * Math.LN10) / delta + delta / 2;
+          if (zc < CHANCE_Z_MAX) this.chance += normalUpperTail(zc);
+        }
+        const c = chi(lg);
+        if (c < bestChi) {
+          second = best;
+          secondChi = bestChi;
+          bestChi = c;
           best = k;
+        } else if (c < secondChi) {
+          second = k;
+          secondChi = c;
         }
       }
       if (best < 0) return -1;
       const lg = readingLog(readings[best], raw);
-      let worst = 0;
-      for (let j = 0; j < e.n; j++) {
-        const d = Math.abs(lg - e.value[j]);
-        if (!(d <= this.acceptSigma * e.sigma[j])) return -1;
-        if (d > worst) worst = d;
+      const log10Ratio = Number.isFinite(declaredLog) ? log10GaussianRatio(lg, declaredLog, e.value, e.sigma, e.n) : Infinity;
+      if (!(log10Ratio >= this.minLog10Ratio)) return -1;
+      if (declaredPlausible) {
+        let declaredDist = Infinity;
+        for (let j = 0; j < e.n; j++) {
+          if (!(Math.abs(lg - e.value[j]) <= this.acceptSigma * e.sigma[j])) return -1;
+          declaredDist = Math.min(declaredDist, Math.abs(declaredLog - e.value[j]));
+        }
+        if (declaredDist < (e.n === 1 ? this.minMissSingle : this.minMiss)) return -1;
       }
-      if (declaredDist - worst < this.minGain) return -1;
+      // A decimal point moved by one place that fits clearly better is left to decimal-shift, unless
+      // the column has shown this reading often already (a column that mixes units says which).
+      if (this.shiftable && Number.isFinite(declaredLog) && !(this.firedByUnit[best] >= COLUMN_HABIT_MIN && this.firedByUnit[best] >= COLUMN_HABIT_SHARE * this.judged)) {
+        const worst = (lg: number) => {
+          let z = 0;
+          for (let j = 0; j < e.n; j++) z = Math.max(z, Math.abs(lg - e.value[j]) / e.sigma[j]);
+          return z;
+        };
+        const unitZ = worst(lg);
+        for (const sh of SHIFTS) {
+          const z = worst(declaredLog + sh);
+          if (z <= this.acceptSigma && z + SHIFT_MARGIN_SIGMA < unitZ) {
+            this.leftToShift++;
+            return -1;
+          }
+        }
+      }
       this.bestDist = Math.abs(lg - e.value[0]);
+      this.log10Ratio = log10Ratio;
+      if (second >= 0) {
+        this.runnerUp = second;
+        this.runnerUpLog10Ratio = (secondChi - bestChi) / (2 * Math.LN10);
+      }
       return best;
     }
-    const { plausibleMin, plausibleMax, typicalLog } = this.spec;
-    if (declaredLog >= plausibleMin && declaredLog <= plausibleMax) return -1;
+    if (declaredPlausible) return -1;
+    const { center, sigma } = this.columnPrior(this.batch);
     let best = -1;
-    let bestGap = Infinity;
+    let bestScore = Infinity;
+    let second = -1;
+    let secondScore = Infinity;
     for (let k = 0; k < readings.length; k++) {
       if (k === this.declaredIndex) continue;
-      const r = readings[k];
-      const lg = readingLog(r, raw);
-      if (!(lg >= (r.plausibleMin ?? plausibleMin) && lg <= (r.plausibleMax ?? plausibleMax))) continue;
-      if (typicalLog === undefined) return k;
-      const gap = Math.abs(lg - typicalLog);
-      if (gap < bestGap) {
-        bestGap = gap;
+      const lg = readingLog(readings[k], raw);
+      if (!this.plausible(k, lg)) continue;
+      // Without a column distribution: the first plausible reading in list order, or the one
+      // nearest the quantity's typical value.
+      const score = Number.isFinite(center) ? ((lg - center) / sigma) ** 2 : this.spec.typicalLog !== undefined ? Math.abs(lg - this.spec.typicalLog) : k;
+      if (score < bestScore) {
+        second = best;
+        secondScore = bestScore;
+        bestScore = score;
         best = k;
+      } else if (score < secondScore) {
+        second = k;
+        secondScore = score;
       }
     }
+    this.log10Ratio = best >= 0 ? Infinity : NaN;
+    if (best >= 0 && second >= 0 && Number.isFinite(center)) {
+      this.runnerUp = second;
+      this.runnerUpLog10Ratio = (secondScore - bestScore) / (2 * Math.LN10);
+    }
     return best;
+  }
+
+  /**
+   * Median and robust spread (1.4826 x MAD, at least 0.5 dex) of the declared values of the batch
+   * that stars can have, in log10 canonical units: what "a value of this column" looks like. NaN
+   * without a batch or with fewer than 20 such values. Worked out once per batch, only when a row
+   * without expectations needs it.
+   */
+  private columnPrior(batch: Batch | undefined): { center: number; sigma: number } {
+    if (!batch) return { center: NaN, sigma: NaN };
+    if (batch !== this.priorBatch) {
+      this.priorBatch = batch;
+      this.priorCenter = NaN;
+      this.priorSigma = NaN;
+      const col = batch.quantities[this.spec.quantity];
+      if (col) {
+        const logs = new Float64Array(batch.length);
+        let n = 0;
+        for (let i = 0; i < batch.length; i++) {
+          const lg = this.declaredLog(col.raw[i], this.spec.canonicalIsLog ? col.value[i] : Math.log10(col.value[i]));
+          if (lg >= this.spec.plausibleMin && lg <= this.spec.plausibleMax) logs[n++] = lg;
+        }
+        if (n >= COLUMN_PRIOR_MIN_ROWS) {
+          const a = logs.subarray(0, n).sort();
+          const med = a[n >> 1];
+          for (let i = 0; i < n; i++) a[i] = Math.abs(a[i] - med);
+          a.sort();
+          this.priorCenter = med;
+          this.priorSigma = Math.max(COLUMN_PRIOR_MIN_SIGMA, 1.4826 * a[n >> 1]);
+        }
+      }
+    }
+    return { center: this.priorCenter, sigma: this.priorSigma };
   }
 
   /**
@@ -375,15 +534,31 @@ export class UnitMixupScreen {
     for (let j = 0; j < e.n; j++) parts.push(`${basisText(j)} gives ${spec.symbol} = ${fmt(e.value[j], 3)}`);
     const implied = e.n > 0 ? parts.join(' and ') : `${basisText(-1)} gives ${spec.symbol} = a stellar value`;
     const suggestedValue = spec.canonicalIsLog || declaredIsLog ? suggestedLog : Math.pow(10, suggestedLog);
+    const ratio = this.log10Ratio;
+    const evidence =
+      e.n > 0
+        ? Number.isFinite(ratio)
+          ? `; given the row's other values that reading is ${timesText(ratio)} more probable than ${declaredUnit}`
+          : `; no star can have the value as ${declaredUnit}`
+        : this.runnerUp >= 0 && Number.isFinite(this.runnerUpLog10Ratio)
+          ? `; of the readings stars can have it is the nearest to the column's other values (${timesText(this.runnerUpLog10Ratio)} more probable than ${spec.readings[this.runnerUp].unit})`
+          : '';
     return rowFinding(batch, i, {
       rule: spec.id,
       severity: 'error',
       columns: [this.column],
-      values: { [this.column]: raw, likelyUnit: reading.unit, [spec.expectedKey]: round6(expected) },
+      values: {
+        [this.column]: raw,
+        likelyUnit: reading.unit,
+        [spec.expectedKey]: round6(expected),
+        likelihoodRatioLog10: Number.isFinite(ratio) ? round6(ratio) : null,
+        runnerUpUnit: this.runnerUp >= 0 ? spec.readings[this.runnerUp].unit : null,
+        runnerUpRatioLog10: Number.isFinite(this.runnerUpLog10Ratio) ? round6(this.runnerUpLog10Ratio) : null,
+      },
       expected: Number.isFinite(expected)
         ? { value: asLinear(expected), min: asLinear(expected - acceptSigma * sigma), max: asLinear(expected + acceptSigma * sigma), unit: spec.canonicalUnit }
         : null,
-      message: `${this.column} = ${fmt(raw)} looks like ${reading.unit}, not ${declaredUnit}: ${asDeclared}, but ${implied}; read as ${reading.unit} it is ${spec.describe(suggestedLog)}${Number.isFinite(this.bestDist) ? ` (${fmt(this.bestDist, 2)} dex away)` : ''}`,
+      message: `${this.column} = ${fmt(raw)} looks like ${reading.unit}, not ${declaredUnit}: ${asDeclared}, but ${implied}; read as ${reading.unit} it is ${spec.describe(suggestedLog)}${Number.isFinite(this.bestDist) ? ` (${fmt(this.bestDist, 2)} dex away)` : ''}${evidence}`,
       suggestion: {
         column: this.column,
         value: round6(suggestedValue) ?? suggestedValue,
@@ -435,13 +610,33 @@ export class UnitMixupScreen {
 
   summary(): Record<string, unknown> {
     const { readings } = this.spec;
+    const gauss3 = 2 * normalUpperTail(3);
     return {
       declaredUnit: this.declaredUnit,
       rowsJudged: this.judged,
       rowsInOtherUnit: this.fired,
       byLikelyUnit: Object.fromEntries(readings.map((r, k) => [r.unit, this.firedByUnit[k]]).filter(([, n]) => (n as number) > 0)),
+      minLikelihoodRatio: round6(10 ** this.minLog10Ratio),
+      ...(this.shiftable ? { rowsLeftToDecimalShift: this.leftToShift } : {}),
+      // If every declared value were right and the residuals Gaussian with the stated sigmas, this
+      // many rows would reach the ratio by chance (before the acceptSigma and minMiss guards).
+      expectedByChance: round6(this.chance),
+      residualTails: {
+        judgedWithExpectation: this.withExpectation,
+        beyondThreeSigma: this.beyond3,
+        fractionBeyondThreeSigma: this.withExpectation ? round6(this.beyond3 / this.withExpectation) : null,
+        gaussianFraction: round6(gauss3),
+        heavyTailed: this.withExpectation >= 100 && poissonUpperTail(this.beyond3, this.withExpectation * gauss3) < 1e-3,
+      },
     };
   }
+}
+
+/** "10^1467 times" for huge ratios, "3400 times" for moderate ones. */
+function timesText(log10Ratio: number): string {
+  if (!Number.isFinite(log10Ratio)) return 'infinitely many times';
+  if (log10Ratio < 6) return `${fmt(10 ** log10Ratio, 2)} times`;
+  return `about 10^${Math.floor(log10Ratio)} times`;
 }
 
 /**

@@ -137,8 +137,8 @@ describe('toBatch: the batch around the values', () => {
     expect(Array.from(b.lines!)).toEqual([50, 51]);
     expect(b.unusable).toEqual({});
     expect(b.problems).toEqual([
-      { index: -1, kind: 'malformed', column: null, text: '', message: 'line 49: unterminated quote' },
-      { index: 1, kind: 'malformed', column: null, text: '', message: 'row has 3 fields, the header 1' },
+      { index: -1, kind: 'malformed', column: null, text: '', message: 'line 49: unterminated quote', line: 49 },
+      { index: 1, kind: 'malformed', column: null, text: '', message: 'row has 3 fields, the header 1', line: 51 },
     ]);
   });
 

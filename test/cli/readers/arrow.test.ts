@@ -104,7 +104,7 @@ describe('openArrow', () => {
       const rows = [];
       for (let i = 0; i < batch.length; i++) {
         rows.push(
-          batch.columns.map((c) => (c.kind === 'text' ? c.values[i] : c.nulls?.[i] === 1 ? null : c.values[i])),
+          batch.columns.map((c) => (c.kind === 'text' ? c.values[i] : c.kind === 'number' && c.nulls?.[i] === 1 ? null : c.values[i])),
         );
       }
       expect(rows).toEqual(expectedRows);

@@ -40,6 +40,10 @@ export async function collect(reader: CatalogReader): Promise<Collected> {
       out.rows.push(
         batch.columns.map((col) => {
           if (col.kind === 'text') return col.values[i];
+          if (col.kind === 'scanned') {
+            const k = col.oddIndex.indexOf(i);
+            return k === -1 ? col.values[i] : col.oddText[k];
+          }
           return col.nulls !== null && col.nulls[i] === 1 ? null : col.values[i];
         }),
       );

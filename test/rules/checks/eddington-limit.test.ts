@@ -44,6 +44,16 @@ describe('eddington-limit', () => {
     expect(c.findings.map((f) => f.severity)).toEqual(['error']);
   });
 
+  it('never fires on a luminosity whose error reaches zero (e_L >= L): its lower bound is unbounded', () => {
+    // 2e5 +- 3e5 L_sun for 1 M_sun: L - 3 sigma is below zero, so nothing rules out a normal star.
+    const a = run({ mass: { values: [1] }, luminosity: { values: [2e5], err: [3e5] } });
+    expect(a.findings).toEqual([]);
+    expect(a.reports[0].checked).toBe(1);
+    // With sigmas = 0 the value itself is judged, error or not.
+    const b = run({ mass: { values: [1] }, luminosity: { values: [2e5], err: [3e5] } }, { sigmas: '0' });
+    expect(b.findings.map((f) => f.severity)).toEqual(['error']);
+  });
+
   it('uses M plus k sigma of the mass', () => {
     // 5e4 L_sun needs M > 1.30 M_sun at X = 0.7; M = 1.0 +- 0.15 reaches 1.45 at 3 sigma.
     const { findings } = run({ mass: { values: [1], err: [0.15] }, luminosity: { values: [5e4] } });

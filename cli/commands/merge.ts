@@ -1,0 +1,212 @@
+/**
+ * `starsieve merge`: the reports of a sharded run (`check --shard K/N`, one per task of a job
+ * array) combined into the report one machine would have written. Inputs belong to exactly one
+ * shard and every rule judges within one input, so merging is putting the inputs back in order:
+ * findings are streamed shard by shard in input order (memory does not grow with the findings),
+ * the per-input parts are sorted, and the summary is summed up again.
+ */
+import { createReadStream } from 'node:fs';
+import { createInterface } from 'node:readline';
+import { ALL_RULES } from '../../rules/checks/index.js';
+import { ConfigError } from '../../rules/engine/params.js';
+import type { RuleReport } from '../../rules/engine/runner.js';
+import { SEVERITIES, severityRank, type Finding, type Rule, type Severity } from '../../rules/engine/types.js';
+import type { FailLevel } from '../options.js';
+import { JsonReportWriter, REPORT_FORMAT } from '../reports/json-report.js';
+import { SarifWriter } from '../reports/sarif.js';
+import { TerminalCollector, renderTerminal, type InputSummary } from '../reports/terminal.js';
+import { TOOL } from '../version.js';
+
+export interface MergeFlags {
+  report: string;
+  sarif?: string;
+  failOn?: FailLevel;
+  color: boolean;
+  quiet?: boolean;
+  show: string;
+}
+
+type Count3 = Record<Severity, number>;
+type StoredFinding = Finding & { fingerprint: string; accepted: boolean };
+
+interface ShardTail {
+  inputs: InputSummary[];
+  bindings: { input: number }[];
+  rules: { id: string; title: string; severity: Severity; perInput: (RuleReport & { input: number })[] }[];
+  summary: { failOn: FailLevel; accepted: { matched: number; stale: { fingerprint: string }[] }; cost?: unknown };
+  shard?: { index: number; count: number; paths: string[] };
+}
+
+/** One shard report read as lines: the findings one by one, then the tail. */
+class ShardReader {
+  private readonly lines: AsyncIterator<string>;
+  private inFindings = false;
+  private seenFindings = false;
+  private tailText: string[] = [];
+  private head: StoredFinding | null = null;
+  private lineNo = 0;
+
+  constructor(readonly path: string) {
+    this.lines = createInterface({ input: createReadStream(path, { encoding: 'utf8' }), crlfDelay: Infinity })[Symbol.asyncIterator]();
+  }
+
+  /** The next finding without taking it; null after the last. */
+  async peek(): Promise<StoredFinding | null> {
+    if (this.head) return this.head;
+    for (;;) {
+      const r = await this.lines.next().catch((e: Error) => {
+        throw new ConfigError(`cannot read ${this.path}: ${e.message}`);
+      });
+      if (r.done) {
+        if (this.lineNo === 0) throw new ConfigError(`${this.path}: empty file, not a starsieve report`);
+        return null;
+      }
+      const line = r.value;
+      this.lineNo++;
+      if (this.lineNo === 1) {
+        if (!line.includes(`"format":"${REPORT_FORMAT}"`)) throw new ConfigError(`${this.path}: not a starsieve findings report`);
+        continue;
+      }
+      if (!this.seenFindings) {
+        if (!line.endsWith('"findings":[')) throw new ConfigError(`${this.path}, line ${this.lineNo}: not laid out as starsieve check writes reports`);
+        this.seenFindings = this.inFindings = true;
+        continue;
+      }
+      if (this.inFindings) {
+        if (line.startsWith(']')) {
+          this.inFindings = false;
+          continue;
+        }
+        const text = line.endsWith(',') ? line.slice(0, -1) : line;
+        try {
+          this.head = JSON.parse(text) as StoredFinding;
+        } catch {
+          throw new ConfigError(`${this.path}, line ${this.lineNo}: not a finding (a report cut short?)`);
+        }
+        return this.head;
+      }
+      this.tailText.push(line);
+    }
+  }
+
+  async take(): Promise<StoredFinding | null> {
+    const f = await this.peek();
+    this.head = null;
+    return f;
+  }
+
+  /** The inputs, bindings, rules, summary and shard; read after the last finding. */
+  async tail(): Promise<ShardTail> {
+    while ((await this.take()) !== null);
+    try {
+      return JSON.parse(`{${this.tailText.join('\n').replace(/}\s*$/, '')}}`) as ShardTail;
+    } catch {
+      throw new ConfigError(`${this.path}: the report ends early (a shard that did not finish?)`);
+    }
+  }
+}
+
+function add(a: Count3, b: Count3): void {
+  for (const s of SEVERITIES) a[s] += b[s];
+}
+
+export async function mergeCommand(paths: string[], flags: MergeFlags): Promise<number> {
+  if (paths.length === 0) throw new ConfigError('merge needs the shard reports to combine');
+  // The shard descriptions come from the tails; the findings are read in a second pass.
+  const tails: ShardTail[] = [];
+  for (const p of paths) tails.push(await new ShardReader(p).tail());
+  const count = tails[0].shard?.count ?? 1;
+  const all = tails[0].shard?.paths ?? tails[0].inputs.map((i) => i.path);
+  const byIndex = new Map<number, number>();
+  tails.forEach((t, k) => {
+    const s = t.shard ?? { index: 1, count: 1, paths: all };
+    if (s.count !== count || JSON.stringify(s.paths) !== JSON.stringify(all)) {
+      throw new ConfigError(`${paths[k]}: shard ${s.index}/${s.count} of another run (other inputs or another shard count)`);
+    }
+    if (byIndex.has(s.index)) throw new ConfigError(`${paths[k]}: shard ${s.index}/${count} is given twice`);
+    byIndex.set(s.index, k);
+  });
+  const missing = [...Array(count).keys()].map((i) => i + 1).filter((i) => !byIndex.has(i));
+  if (missing.length) throw new ConfigError(`shard${missing.length > 1 ? 's' : ''} ${missing.join(', ')} of ${count} missing: the merged report would leave inputs out`);
+  const ruleIds = tails[0].rules.map((r) => r.id);
+  for (let k = 1; k < tails.length; k++) {
+    if (JSON.stringify(tails[k].rules.map((r) => r.id)) !== JSON.stringify(ruleIds)) throw new ConfigError(`${paths[k]}: ran other rules than ${paths[0]}`);
+  }
+  const failOn = flags.failOn ?? tails[0].summary.failOn;
+  const rules = ruleIds.map((id) => ALL_RULES.find((r) => r.meta.id === id)).filter((r): r is Rule => r !== undefined);
+
+  const writer = new JsonReportWriter(flags.report, TOOL);
+  const sarif = flags.sarif ? new SarifWriter(flags.sarif, TOOL, rules, all) : null;
+  const collector = new TerminalCollector(Math.max(0, Number(flags.show) || 0));
+  const totals: Count3 = { error: 0, warning: 0, note: 0 };
+  const failing: Count3 = { error: 0, warning: 0, note: 0 };
+  try {
+    const readers = paths.map((p) => new ShardReader(p));
+    for (let input = 0; input < all.length; input++) {
+      const reader = readers[byIndex.get((input % count) + 1)!];
+      for (let f = await reader.peek(); f !== null && f.input === input; f = await reader.peek()) {
+        await reader.take();
+        const { fingerprint, accepted, ...finding } = f;
+        writer.push(finding, fingerprint, accepted);
+        sarif?.push(finding);
+        collector.push(finding);
+        totals[finding.severity]++;
+        if (!accepted) failing[finding.severity]++;
+      }
+    }
+    for (const r of readers) {
+      if ((await r.peek()) !== null) throw new ConfigError(`${r.path}: findings out of input order (not a shard report written by check?)`);
+    }
+    const inputs = tails.flatMap((t) => t.inputs).sort((a, b) => a.index - b.index);
+    const bindings = tails.flatMap((t) => t.bindings).sort((a, b) => a.input - b.input);
+    const ruleRows = tails[0].rules.map((r, j) => ({
+      id: r.id,
+      title: r.title,
+      severity: r.severity,
+      perInput: tails.flatMap((t) => t.rules[j].perInput).sort((a, b) => a.input - b.input),
+    }));
+    const byRule: Record<string, Count3> = {};
+    for (const r of ruleRows) {
+      const c: Count3 = { error: 0, warning: 0, note: 0 };
+      for (const p of r.perInput) add(c, p.findings);
+      byRule[r.id] = c;
+    }
+    const failed = failOn !== 'never' && SEVERITIES.some((s) => failing[s] > 0 && severityRank(s) >= severityRank(failOn as Severity));
+    // An accepted entry is stale only if it matched in no shard.
+    let stale = tails[0].summary.accepted.stale;
+    for (const t of tails.slice(1)) {
+      const there = new Set(t.summary.accepted.stale.map((e) => e.fingerprint));
+      stale = stale.filter((e) => there.has(e.fingerprint));
+    }
+    const summary = {
+      findings: totals,
+      byRule,
+      rows: inputs.reduce((a, i) => a + i.rows, 0),
+      rowsWithFindings: inputs.reduce((a, i) => a + i.rowsWithFindings, 0),
+      failOn,
+      failed,
+      accepted: { matched: tails.reduce((a, t) => a + t.summary.accepted.matched, 0), stale },
+      cost: { ...mergedCost(tails), shards: [...byIndex.keys()].sort((a, b) => a - b).map((k) => tails[byIndex.get(k)!].summary.cost ?? null) },
+    };
+    writer.commit({ inputs, bindings, rules: ruleRows, summary });
+    sarif?.commit();
+    if (!flags.quiet) {
+      const rows = ruleRows.map((r) => ({ id: r.id, reports: r.perInput }));
+      process.stdout.write(renderTerminal(inputs, rows, collector, { color: flags.color, failOn, failed }));
+      process.stdout.write(`merged ${paths.length} shard report${paths.length === 1 ? '' : 's'} (${all.length} input${all.length === 1 ? '' : 's'}) into ${flags.report}\n`);
+    }
+    return failed ? 1 : 0;
+  } catch (e) {
+    writer.abort();
+    sarif?.abort();
+    throw e;
+  }
+}
+
+/** The shards ran side by side: the wall time of the slowest, the rows of all, the largest process. */
+function mergedCost(tails: ShardTail[]) {
+  const costs = tails.map((t) => t.summary.cost as { wallSeconds?: number; peakRssMb?: number } | undefined);
+  const wall = Math.max(0, ...costs.map((c) => c?.wallSeconds ?? 0));
+  const rows = tails.reduce((a, t) => a + t.inputs.reduce((b, i) => b + i.rows, 0), 0);
+  return { wallSeconds: wall, rowsPerSecond: Math.round(rows / Math.max(wall, 1e-3)), peakRssMb: Math.max(0, ...costs.map((c) => c?.peakRssMb ?? 0)) };
+}

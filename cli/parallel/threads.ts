@@ -1,0 +1,187 @@
+/**
+ * Checking in worker threads, with findings identical to a single-thread run:
+ * - several inputs: each runs whole in a thread of its own; findings are handed on in input order
+ *   (a later input's wait until the earlier ones are done);
+ * - one input: a pipeline. The worker reads, binds and checks each batch with the first rules in
+ *   rule order (the screening rules and some judging ones); this thread checks it with the rest,
+ *   sorts the batch's findings and writes them. Both halves see the same batches in the same rule
+ *   order, so nothing about the findings depends on the split.
+ */
+import { Worker } from 'node:worker_threads';
+import { ConfigError } from '../../rules/engine/params.js';
+import { InputRun, type RuleReport } from '../../rules/engine/runner.js';
+import type { Rule } from '../../rules/engine/types.js';
+import { BindingError, type Binding } from '../binding/types.js';
+import { boundMap, inputSummary } from '../commands/input-steps.js';
+import { RowTally, inputNumber, type InputResult, type RunInputsOptions } from '../commands/run-inputs.js';
+import { InputError } from '../readers/types.js';
+import { FILE_SPILL } from '../spill/file-spill.js';
+import type { WorkerMessage, WorkerTask } from './protocol.js';
+
+/**
+ * The worker's entry: next to the bundle when this runs from dist/ (see bin/starsieve.js), else a
+ * small shim that registers the TypeScript loader first.
+ */
+const ENTRY = import.meta.url.endsWith('.mjs') ? new URL('./input-worker.mjs', import.meta.url) : new URL('./worker-entry.mjs', import.meta.url);
+
+/**
+ * Where the rule list is cut for a pipeline: the worker also reads and converts the input, so it
+ * takes a little under half the rules.
+ */
+export function splitPoint(rules: readonly Rule[]): number {
+  const share = Number(process.env.STARSIEVE_SPLIT_SHARE ?? 0.45);
+  return Math.max(1, Math.min(rules.length - 1, Math.round(rules.length * share)));
+}
+
+function task(pos: number, opts: RunInputsOptions, mode: WorkerTask['mode'], splitAt: number): WorkerTask {
+  return {
+    input: inputNumber(opts, pos),
+    path: opts.paths[pos],
+    reader: { format: opts.format, delimiter: opts.delimiter, hdu: opts.hdu, table: opts.table, batchSize: opts.batchSize },
+    bind: opts.bind,
+    selection: opts.selection,
+    mode,
+    splitAt,
+  };
+}
+
+/** The error a worker reported, as the class the command line knows how to print. */
+function rebuilt(m: Extract<WorkerMessage, { type: 'error' }>): Error {
+  if (m.name === 'InputError') return new InputError(m.message, m.path ?? '', m.position ?? null);
+  if (m.name === 'BindingError') return new BindingError(m.message, m.column ?? null);
+  if (m.name === 'ConfigError') return new ConfigError(m.message);
+  return new Error(m.message);
+}
+
+function start(t: WorkerTask): Worker {
+  return new Worker(ENTRY, { workerData: t });
+}
+
+/** One input as a two-thread pipeline. */
+export function runPipelined(pos: number, opts: RunInputsOptions): Promise<InputResult> {
+  const rules = opts.rules;
+  const splitAt = splitPoint(rules);
+  const path = opts.paths[pos];
+  const index = inputNumber(opts, pos);
+  const worker = start(task(pos, opts, 'first-rules', splitAt));
+  return new Promise<InputResult>((resolve, reject) => {
+    let settled = false;
+    let run: InputRun | null = null;
+    let binding: Binding | null = null;
+    let rows = 0;
+    const tally = new RowTally(opts.sink);
+    const fail = (e: unknown) => {
+      if (settled) return;
+      settled = true;
+      void worker.terminate();
+      reject(e);
+    };
+    worker.on('message', (m: WorkerMessage) => {
+      try {
+        if (m.type === 'bound') {
+          binding = m.binding;
+          run = new InputRun(rules, opts.selection, boundMap(binding), tally, { from: splitAt, to: rules.length }, undefined, FILE_SPILL);
+        } else if (m.type === 'batch') {
+          worker.postMessage({ type: 'ack' });
+          run!.processBatch(m.batch, m.findings);
+          opts.observe?.(m.batch);
+          rows += m.batch.length;
+          opts.progress?.(path, rows, m.position);
+        } else if (m.type === 'done') {
+          const reports = run!.finish(m.part ?? undefined);
+          settled = true;
+          resolve({ binding: binding!, rules: reports, summary: inputSummary(index, path, m.format, m.stats, m.notes, binding!, tally.rows.size) });
+        } else if (m.type === 'error') fail(rebuilt(m));
+      } catch (e) {
+        fail(e);
+      }
+    });
+    worker.on('error', fail);
+    worker.on('exit', (code) => fail(new Error(`a worker thread stopped early (exit code ${code})`)));
+  });
+}
+
+interface Pending {
+  worker: Worker | null;
+  /** Messages not yet handed on because an earlier input is still being written. */
+  queue: WorkerMessage[];
+  binding: Binding | null;
+  rows: number;
+}
+
+/** Several inputs, each whole in a thread, at most `jobs` at a time; findings in input order. */
+export function runWhole(opts: RunInputsOptions, jobs: number): Promise<InputResult[]> {
+  const n = opts.paths.length;
+  const results: InputResult[] = [];
+  const pending: Pending[] = Array.from({ length: n }, () => ({ worker: null, queue: [], binding: null, rows: 0 }));
+  let current = 0;
+  let launched = 0;
+  let running = 0;
+  return new Promise<InputResult[]>((resolve, reject) => {
+    let settled = false;
+    const fail = (e: unknown) => {
+      if (settled) return;
+      settled = true;
+      for (const p of pending) void p.worker?.terminate();
+      reject(e);
+    };
+    /** Hands on what the current input has sent; moves to the next input when it is done. */
+    const drain = () => {
+      while (!settled && current < n) {
+        const p = pending[current];
+        let done = false;
+        while (p.queue.length > 0) {
+          const m = p.queue.shift()!;
+          if (m.type === 'bound') p.binding = m.binding;
+          else if (m.type === 'findings') {
+            for (const f of m.findings) opts.sink.push(f);
+            p.rows += m.rows;
+            if (m.rows > 0) opts.progress?.(opts.paths[current], p.rows, m.position);
+          } else if (m.type === 'done') {
+            results.push({
+              binding: p.binding!,
+              rules: m.reports as RuleReport[],
+              summary: inputSummary(inputNumber(opts, current), opts.paths[current], m.format, m.stats, m.notes, p.binding!, m.rowsWithFindings),
+            });
+            done = true;
+            break;
+          } else if (m.type === 'error') return fail(rebuilt(m));
+        }
+        if (!done) return;
+        current++;
+      }
+      if (current === n && !settled) {
+        settled = true;
+        resolve(results);
+      }
+    };
+    const launch = () => {
+      while (!settled && running < jobs && launched < n) {
+        const index = launched++;
+        const p = pending[index];
+        const w = start(task(index, opts, 'whole', 0));
+        p.worker = w;
+        running++;
+        let finished = false;
+        w.on('message', (m: WorkerMessage) => {
+          if (m.type === 'findings' || m.type === 'bound' || m.type === 'done' || m.type === 'error') p.queue.push(m);
+          // Findings wait in memory only while an earlier input is still running.
+          if (m.type === 'findings') w.postMessage({ type: 'ack' });
+          if (m.type === 'done' || m.type === 'error') {
+            finished = true;
+            running--;
+            launch();
+          }
+          if (index === current) drain();
+          else if (m.type === 'done' || m.type === 'error') drain();
+        });
+        w.on('error', fail);
+        w.on('exit', (code) => {
+          if (!finished) fail(new Error(`a worker thread stopped early (exit code ${code})`));
+        });
+      }
+    };
+    launch();
+  });
+}
+
