@@ -1,3 +1,4 @@
+import { expectedExceedances } from '../physics/statistics.js';
 import { COLUMN_VERDICT_MIN_ROWS, columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
 import { usableValues } from '../engine/usable.js';
 import type { Finding, Rule, Severity } from '../engine/types.js';
@@ -214,6 +215,9 @@ export const bolometricMagnitudeMismatch: Rule = {
           medianResidualMag: round6(judgeRows.tally.quantile(0.5)),
           columnOffsetMag: Number.isFinite(judgeRows.offset) ? round6(judgeRows.offset) : null,
           rowsFlagged: flagged,
+          // Two-sided |residual| > k sigma over the judged rows, were the residuals Gaussian.
+          expectedByChance: round6(expectedExceedances(k, judgeRows.tally.n, 0)),
+          observed: flagged,
         };
       },
     };

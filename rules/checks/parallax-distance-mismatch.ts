@@ -1,3 +1,4 @@
+import { expectedExceedances } from '../physics/statistics.js';
 import { COLUMN_VERDICT_MIN_ROWS, columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
 import { usableValues } from '../engine/usable.js';
 import type { Rule } from '../engine/types.js';
@@ -250,6 +251,9 @@ export const parallaxDistanceMismatch: Rule = {
           rowsJudged: judged,
           rowsJudgedWithoutError: judgedWithoutError,
           rowsFlagged: flagged,
+          // Two-sided |residual| > k sigma over the rows judged with an error, were the residuals Gaussian.
+          expectedByChance: round6(expectedExceedances(k, judged - judgedWithoutError, 0)),
+          observed: flagged,
           columnUnitVerdict: columnVerdict >= 0 ? FACTORS[columnVerdict].distance : null,
         };
       },

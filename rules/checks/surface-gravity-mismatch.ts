@@ -1,3 +1,4 @@
+import { expectedExceedances } from '../physics/statistics.js';
 import { COLUMN_VERDICT_MIN_ROWS, columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
 import { usableValues } from '../engine/usable.js';
 import type { Rule } from '../engine/types.js';
@@ -237,7 +238,17 @@ export const surfaceGravityMismatch: Rule = {
         if (overflow) out.push(overflow);
       },
       summary() {
-        return { sigmas: k, toleranceDex: tol, defaultErrorDex: defaultErr, rowsJudged: judged, rowsFlagged: flagged, columnUnitVerdict: columnVerdict || null };
+        return {
+          sigmas: k,
+          toleranceDex: tol,
+          defaultErrorDex: defaultErr,
+          rowsJudged: judged,
+          rowsFlagged: flagged,
+          columnUnitVerdict: columnVerdict || null,
+          // Two-sided |residual| > k sigma over the judged rows, were the residuals Gaussian.
+          expectedByChance: round6(expectedExceedances(k, judged, 0)),
+          observed: flagged,
+        };
       },
     };
   },

@@ -7,7 +7,7 @@
  *   npm run bench -- --ten-million                  # 10M rows (same as --rows 10000000)
  *   npm run bench -- --only csv,duckdb --profile    # some measurements, and a CPU profile
  *
- * Never part of `npm test`. Results go to test-output/bench.json; see README-performance.md.
+ * Never part of `npm test`. Results go to test-output/bench.json; the README section "Performance" shows a run.
  */
 import { cpus, loadavg } from 'node:os';
 import { join } from 'node:path';

@@ -13,6 +13,19 @@ const accounted = (r: ReturnType<typeof run>) => r.reports[0].checked + Object.v
 const sb = (r: number, t: number) => r * r * (t / 5772) ** 4;
 
 describe('stefan-boltzmann-mismatch', () => {
+  it('states how many exceedances chance alone predicts among the rows judged, and how many were seen', () => {
+    // 2000 rows exactly on L = R^2 (Teff/5772 K)^4: none is flagged, and Gaussian residuals would
+    // give 2 N Q(3) = 2 x 2000 x 0.0013499 = 5.4 by chance (Q(3) from the normal distribution, common practice).
+    const n = 2000;
+    const radius = Array.from({ length: n }, (_, i) => 0.5 + i / n);
+    const teff = radius.map((_, i) => 4000 + i);
+    const r = run({ luminosity: { values: radius.map((x, i) => sb(x, teff[i])) }, radius: { values: radius }, teff: { values: teff } });
+    const d = r.reports[0].details as { expectedByChance: number; observed: number; rowsJudged: number };
+    expect(d.rowsJudged).toBe(n);
+    expect(d.observed).toBe(0);
+    expect(d.expectedByChance).toBeCloseTo(2 * n * 0.0013499, 2);
+  });
+
   it('stays silent for the Sun, Sirius A and Sirius B', () => {
     // Sun: R = 1, Teff = 5772 K gives 0.9999976 L_sun (IAU 2015 B3; physics-reference.md §1, §11).
     // Sirius A: L 24.7 +- 0.7, R 1.713 +- 0.009, Teff 9845 +- 64 K; R^2 T^4 gives 24.84 L_sun, 0.6 %
