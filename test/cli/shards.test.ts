@@ -6,6 +6,9 @@ import { readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { beforeAll, describe, expect, it } from 'vitest';
 import { REPO, cli, tempDir } from '../helpers/cli.js';
+import { draft07Validator } from '../helpers/schema.js';
+
+const validate = draft07Validator(JSON.parse(readFileSync(join(REPO, 'cli/reports/findings-report.schema.json'), 'utf8')) as object);
 
 const DEMO = join(REPO, 'sample-catalogs/thistlewood-dr1');
 let dir = '';
@@ -53,6 +56,8 @@ describe('sharded runs', () => {
       expect(m.stderr).toBe('');
       expect(m.code).toBe(one.code);
       expect(comparable(merged)).toEqual(expected);
+      // Shard reports and the merged report are reports like any other.
+      for (const p of [merged, parts[0]]) expect(validate(JSON.parse(readFileSync(p, 'utf8'))), JSON.stringify(validate.errors?.slice(0, 2))).toBe(true);
     }
   }, 240_000);
 

@@ -8,18 +8,9 @@ import type { Finding } from '../../rules/engine/types.js';
 import { L_SUN_W, M_SUN_KG, R_SUN_M } from '../../rules/physics/constants.js';
 import { eddingtonPerSolarMass } from '../../rules/physics/eddington.js';
 import type { RawColumn } from '../../cli/readers/types.js';
+import { rng } from '../helpers/rng.js';
 
-/** A small deterministic generator (mulberry32, common practice), so a seed fixes every choice. */
-export function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+export { rng };
 
 export function shuffle<T>(a: T[], r: () => number): T[] {
   for (let i = a.length - 1; i > 0; i--) {

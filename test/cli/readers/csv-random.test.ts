@@ -6,21 +6,11 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import { openCsv } from '../../../cli/readers/csv.js';
 import { collect, TempDir } from './helpers.js';
+import { rng } from '../../helpers/rng.js';
 
 const tmp = new TempDir();
 afterAll(() => tmp.remove());
 
-/** Small deterministic generator (mulberry32), so a failure can be replayed from its seed. */
-function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 function makeCsv(rand: () => number, delimiter: string): string {
   const pick = <T>(xs: T[]): T => xs[Math.floor(rand() * xs.length)];
