@@ -173,8 +173,12 @@ export function runWhole(opts: RunInputsOptions, jobs: number): Promise<InputRes
             running--;
             launch();
           }
-          if (index === current) drain();
-          else if (m.type === 'done' || m.type === 'error') drain();
+          // A report that cannot be written surfaces here: it ends the run like any other error.
+          try {
+            if (index === current || m.type === 'done' || m.type === 'error') drain();
+          } catch (e) {
+            fail(e);
+          }
         });
         w.on('error', fail);
         w.on('exit', (code) => {

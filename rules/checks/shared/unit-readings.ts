@@ -175,6 +175,16 @@ export const MIN_MISS_PARAMS: readonly ParamSpec[] = [
 
 /** Most rows kept for the per-row listing while deciding whether the whole column is affected. */
 const ROW_BUFFER_CAP = 20_000;
+
+/** Sum over the row's expectations of ((lg - e_j) / s_j)^2. A function here, not a closure per row. */
+function chiSquare(lg: number, e: Expectations): number {
+  let c = 0;
+  for (let j = 0; j < e.n; j++) {
+    const d = (lg - e.value[j]) / e.sigma[j];
+    c += d * d;
+  }
+  return c;
+}
 const MAX_BASES = 4;
 /** Fewer plausible declared values than this in a batch give no column distribution to weigh readings by. */
 const COLUMN_PRIOR_MIN_ROWS = 20;
@@ -365,14 +375,6 @@ export class UnitMixupScreen {
     if (e.n > 0) {
       this.withExpectation++;
       if (Number.isFinite(declaredLog) && Math.abs(declaredLog - e.value[0]) > 3 * e.sigma[0]) this.beyond3++;
-      const chi = (lg: number) => {
-        let c = 0;
-        for (let j = 0; j < e.n; j++) {
-          const d = (lg - e.value[j]) / e.sigma[j];
-          c += d * d;
-        }
-        return c;
-      };
       let w = 0;
       for (let j = 0; j < e.n; j++) w += 1 / (e.sigma[j] * e.sigma[j]);
       let best = -1;
@@ -392,7 +394,7 @@ export class UnitMixupScreen {
           const zc = (this.minLog10Ratio * Math.LN10) / delta + delta / 2;
           if (zc < CHANCE_Z_MAX) this.chance += normalUpperTail(zc);
         }
-        const c = chi(lg);
+        const c = chiSquare(lg, e);
         if (c < bestChi) {
           second = best;
           secondChi = bestChi;
