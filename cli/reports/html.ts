@@ -24,14 +24,41 @@ export interface HtmlReportData {
 
 const num = (n: number) => n.toLocaleString('en-US');
 
+/** A segment of the catalog's own fit as the report records it (mass-luminosity-outlier's details). */
+export interface FitSegment {
+  range: [number, number];
+  mode: string;
+  slope: number;
+  intercept: number;
+  intrinsicScatterDex: number;
+}
+
+/**
+ * The relation the rule judged by: a published one, or with `--relation catalog` the catalog's own
+ * fit per segment (the default relation where a segment had too few stars to fit).
+ */
+function judgedRelation(choice: RelationChoice, fit: FitSegment[] | null): (m: number, rel: RelationVerdictInput) => boolean {
+  if (choice !== 'catalog' || !fit) return (m, rel) => relationAt(choice === 'catalog' ? 'default' : choice, m, rel);
+  return (m, rel) => {
+    const s = fit.find((seg) => m >= seg.range[0] && m <= seg.range[1]);
+    if (!s || s.mode === 'published') return relationAt('default', m, rel);
+    rel.logL = s.slope * Math.log10(m) + s.intercept;
+    rel.slope = s.slope;
+    rel.scatter = s.intrinsicScatterDex;
+    rel.brightAllowance = 0;
+    return true;
+  };
+}
+
 /** The relation band and Eddington lines on the mass-luminosity plane, from the same physics the rules use. */
-function massLuminosityOverlays(choice: RelationChoice, threshold: number): { curves: Curve[]; bands: Band[] } {
+export function massLuminosityOverlays(choice: RelationChoice, threshold: number, fit: FitSegment[] | null): { curves: Curve[]; bands: Band[] } {
   const rel: RelationVerdictInput = { relation: '', logL: NaN, slope: NaN, scatter: NaN, brightAllowance: 0 };
+  const at = judgedRelation(choice, fit);
   const mid: [number, number][] = [];
   const lower: [number, number][] = [];
   const upper: [number, number][] = [];
   for (let x = -1; x <= 2.0001; x += 0.01) {
-    if (!relationAt(choice, 10 ** x, rel)) continue;
+    if (!at(10 ** x, rel)) continue;
     mid.push([x, rel.logL]);
     lower.push([x, rel.logL - threshold * rel.scatter]);
     upper.push([x, rel.logL + rel.brightAllowance + threshold * rel.scatter]);
@@ -85,8 +112,10 @@ export function renderHtml(d: HtmlReportData): string {
   const styles = markStyles(ruleIds);
   const ml = d.rules.find((r) => r.id === 'mass-luminosity-outlier')?.reports[0];
   const choice = ((ml?.params.relation as string) ?? 'default') as RelationChoice;
-  const threshold = (ml?.params.threshold as number) ?? 3;
-  const overlays = massLuminosityOverlays(choice, threshold);
+  // The threshold the rule used (raised by `--sigma auto`), and the catalog's fit where there is one.
+  const details = (ml?.details ?? {}) as { threshold?: number; catalogFit?: { segments?: FitSegment[] } | null };
+  const threshold = typeof details.threshold === 'number' ? details.threshold : ((ml?.params.threshold as number) ?? 3);
+  const overlays = massLuminosityOverlays(choice, threshold, details.catalogFit?.segments ?? null);
   const totals = { error: 0, warning: 0, note: 0 };
   for (const c of d.counts.values()) for (const s of ['error', 'warning', 'note'] as const) totals[s] += c[s];
   const parts: string[] = [];

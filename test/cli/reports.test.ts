@@ -156,3 +156,25 @@ describe('terminal output', () => {
     expect(r.stdout).toContain('\\x1b[2J\\x1b[31mevil\\x07');
   });
 });
+
+describe('HTML diagram of the mass-luminosity plane', () => {
+  it('draws the relation the rule judged by: the catalog fit per segment, the default relation elsewhere', async () => {
+    const { massLuminosityOverlays } = await import('../../cli/reports/html.js');
+    const { relationAt } = await import('../../rules/physics/relation-choice.js');
+    const fit = [{ range: [0.179, 0.45] as [number, number], mode: 'line', slope: 2, intercept: -0.5, intrinsicScatterDex: 0.1 }];
+    const o = massLuminosityOverlays('catalog', 3, fit);
+    const mid = o.curves[0].points;
+    const near = (x: number) => mid.reduce((a, p) => (Math.abs(p[0] - x) < Math.abs(a[0] - x) ? p : a));
+    // Inside the fitted segment: log L = 2 log M - 0.5 (the fit's own line, no published relation).
+    const inside = near(Math.log10(0.3));
+    expect(inside[1]).toBeCloseTo(2 * inside[0] - 0.5, 6);
+    // Outside it the default relation, as the rule falls back to it.
+    const outside = near(0);
+    const rel = { relation: '', logL: NaN, slope: NaN, scatter: NaN, brightAllowance: 0 };
+    expect(relationAt('default', 10 ** outside[0], rel)).toBe(true);
+    expect(outside[1]).toBeCloseTo(rel.logL, 6);
+    // The band is the fit's intrinsic scatter times the threshold.
+    const k = o.bands[0].lower.findIndex((p) => p[0] === inside[0]);
+    expect(inside[1] - o.bands[0].lower[k][1]).toBeCloseTo(0.3, 6);
+  });
+});
