@@ -154,6 +154,18 @@ export class RowRelations {
   /** Extra gravity scatter of the batch, in dex (see gravityScatter). */
   gravityScatter = 0;
   private readonly rel: RelationVerdictInput = { relation: '', logL: NaN, slope: NaN, scatter: NaN, brightAllowance: 0 };
+  /** The log M `rel` was filled at, and whether a relation covered it: a row asks several times. */
+  private relLm = NaN;
+  private relOk = false;
+
+  /** The default relation at the current mass, into `rel`; computed once per mass. */
+  private relationAtMass(): boolean {
+    if (this.lm !== this.relLm) {
+      this.relOk = relationAt('default', Math.pow(10, this.lm), this.rel);
+      this.relLm = this.lm;
+    }
+    return this.relOk;
+  }
 
   reset(): void {
     this.lm = this.lr = this.ll = this.lt = this.g = NaN;
@@ -168,7 +180,7 @@ export class RowRelations {
     const has = Number.isFinite;
     if (has(this.ll) && has(this.lr) && has(this.lt)) bits |= Relation.StefanBoltzmann;
     if (has(this.g) && has(this.lm) && has(this.lr)) bits |= Relation.Gravity;
-    if (this.mainSequence && has(this.lm) && has(this.ll) && relationAt('default', Math.pow(10, this.lm), this.rel)) bits |= Relation.MassLuminosity;
+    if (this.mainSequence && has(this.lm) && has(this.ll) && this.relationAtMass()) bits |= Relation.MassLuminosity;
     return bits;
   }
 
@@ -269,7 +281,7 @@ export class RowRelations {
     }
     if (bits & Relation.MassLuminosity && this.mainSequence && has(this.lm) && has(this.ll)) {
       const rel = this.rel;
-      if (relationAt('default', Math.pow(10, this.lm), rel)) {
+      if (this.relationAtMass()) {
         let resid = this.ll - rel.logL;
         if (resid > 0) resid = Math.max(0, resid - rel.brightAllowance);
         // Above the relation: L's lower error and M's upper error face it.
@@ -372,8 +384,10 @@ export class RowRelations {
     if (this.mainSequence && has(this.lm) && has(this.ll) && (cell === Cell.Mass || cell === Cell.Luminosity)) {
       const rel = this.rel;
       if (cell === Cell.Luminosity) {
-        if (relationAt('default', Math.pow(10, this.lm), rel)) addTerm(rel.logL + rel.brightAllowance / 2, rel.scatter);
+        if (this.relationAtMass()) addTerm(rel.logL + rel.brightAllowance / 2, rel.scatter);
       } else {
+        // The inversion fills `rel` at other masses: what it holds no longer belongs to lm.
+        this.relLm = NaN;
         const x = invertMassLuminosity(this.ll, rel);
         if (Number.isFinite(x)) addTerm(x, rel.scatter / rel.slope);
       }
