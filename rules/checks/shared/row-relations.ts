@@ -425,10 +425,15 @@ export class RowInputs {
   readonly classes: Uint8Array;
   readonly scatter: number;
 
+  private readonly dex: (DexColumns | null)[];
+
   constructor(
     readonly batch: Batch,
     classes: Uint8Array,
   ) {
+    const q = batch.quantities;
+    // Mass, radius, luminosity, Teff: logs and side errors in dex, shared by every rule of the batch.
+    this.dex = [q.mass, q.radius, q.luminosity, q.teff].map((c) => (c ? dexColumns(c) : null));
     this.mass = usableValues(batch, 'mass');
     this.radius = usableValues(batch, 'radius');
     this.luminosity = usableValues(batch, 'luminosity');
@@ -448,25 +453,26 @@ export class RowInputs {
     const r = this.radius ? this.radius[i] : NaN;
     const l = this.luminosity ? this.luminosity[i] : NaN;
     const t = this.teff ? this.teff[i] : NaN;
+    const [dm, dr, dl, dt] = this.dex;
     if (m > 0) {
-      rr.lm = Math.log10(m);
-      rr.smLo = sideDexErr(q.mass!, i, false);
-      rr.smHi = sideDexErr(q.mass!, i, true);
+      rr.lm = dm!.log[i];
+      rr.smLo = dm!.lo[i];
+      rr.smHi = dm!.hi[i];
     }
     if (r > 0) {
-      rr.lr = Math.log10(r);
-      rr.srLo = sideDexErr(q.radius!, i, false);
-      rr.srHi = sideDexErr(q.radius!, i, true);
+      rr.lr = dr!.log[i];
+      rr.srLo = dr!.lo[i];
+      rr.srHi = dr!.hi[i];
     }
     if (l > 0) {
-      rr.ll = Math.log10(l);
-      rr.slLo = sideDexErr(q.luminosity!, i, false);
-      rr.slHi = sideDexErr(q.luminosity!, i, true);
+      rr.ll = dl!.log[i];
+      rr.slLo = dl!.lo[i];
+      rr.slHi = dl!.hi[i];
     }
     if (t > 0) {
-      rr.lt = Math.log10(t);
-      rr.stLo = sideDexErr(q.teff!, i, false);
-      rr.stHi = sideDexErr(q.teff!, i, true);
+      rr.lt = dt!.log[i];
+      rr.stLo = dt!.lo[i];
+      rr.stHi = dt!.hi[i];
     }
     const g = this.logg ? this.logg[i] : NaN;
     if (Number.isFinite(g)) {
@@ -479,6 +485,31 @@ export class RowInputs {
       rr.sgHi = Number.isFinite(hi) ? hi : Number.isFinite(lo) ? lo : 0;
     }
   }
+}
+
+/** A column's values as log10 (NaN where not positive) and its lower and upper errors in dex. */
+interface DexColumns {
+  log: Float64Array;
+  lo: Float64Array;
+  hi: Float64Array;
+}
+
+/** Computed once per column of a batch: the rules that relate rows read them again and again. */
+const dexCache = new WeakMap<QuantityColumn, DexColumns>();
+
+function dexColumns(col: QuantityColumn): DexColumns {
+  const hit = dexCache.get(col);
+  if (hit) return hit;
+  const n = col.value.length;
+  const d: DexColumns = { log: new Float64Array(n), lo: new Float64Array(n), hi: new Float64Array(n) };
+  for (let i = 0; i < n; i++) {
+    const v = col.value[i];
+    d.log[i] = v > 0 ? Math.log10(v) : NaN;
+    d.lo[i] = sideDexErr(col, i, false);
+    d.hi[i] = sideDexErr(col, i, true);
+  }
+  dexCache.set(col, d);
+  return d;
 }
 
 /**
