@@ -10,12 +10,13 @@
 import { Worker } from 'node:worker_threads';
 import { ConfigError } from '../../rules/engine/params.js';
 import { InputRun, type RuleReport } from '../../rules/engine/runner.js';
-import type { Rule } from '../../rules/engine/types.js';
+import type { Finding, Rule } from '../../rules/engine/types.js';
 import { BindingError, type Binding } from '../binding/types.js';
 import { boundMap, inputSummary } from '../commands/input-steps.js';
 import { RowTally, inputNumber, type InputResult, type RunInputsOptions } from '../commands/run-inputs.js';
 import { InputError } from '../readers/types.js';
 import { FILE_SPILL } from '../spill/file-spill.js';
+import type { SpillLog } from '../../rules/engine/spill.js';
 import type { WorkerMessage, WorkerTask } from './protocol.js';
 
 /**
@@ -104,17 +105,46 @@ export function runPipelined(pos: number, opts: RunInputsOptions): Promise<Input
 
 interface Pending {
   worker: Worker | null;
-  /** Messages not yet handed on because an earlier input is still being written. */
+  /** Messages not yet handed on because an earlier input is still being written (their findings spilled). */
   queue: WorkerMessage[];
   binding: Binding | null;
   rows: number;
+  /** Findings that arrived while an earlier input was still being written, kept in temporary files. */
+  held: HeldFindings | null;
+}
+
+/** Findings per spill partition: the partitions are read back in order, one at a time. */
+const HELD_CHUNK = 4096;
+const HELD_PARTITIONS = 4096;
+
+/**
+ * The findings of an input that is not yet being written, in temporary files rather than in
+ * memory, so a fast later input cannot fill the memory while a slow earlier one runs.
+ */
+class HeldFindings {
+  private readonly log: SpillLog = FILE_SPILL.open(1, HELD_PARTITIONS);
+  private count = 0;
+  private readonly one = new Float64Array(1);
+
+  add(f: Finding): void {
+    this.log.append(Math.min(HELD_PARTITIONS - 1, Math.floor(this.count++ / HELD_CHUNK)), this.one, JSON.stringify(f));
+  }
+
+  /** Every held finding, in the order held; then the files are gone. */
+  flush(sink: { push(f: Finding): void }): void {
+    const used = Math.min(HELD_PARTITIONS, Math.ceil(this.count / HELD_CHUNK));
+    for (let part = 0; part < used; part++) {
+      for (const text of this.log.take(part).texts) sink.push(JSON.parse(text!) as Finding);
+    }
+    this.log.close();
+  }
 }
 
 /** Several inputs, each whole in a thread, at most `jobs` at a time; findings in input order. */
 export function runWhole(opts: RunInputsOptions, jobs: number): Promise<InputResult[]> {
   const n = opts.paths.length;
   const results: InputResult[] = [];
-  const pending: Pending[] = Array.from({ length: n }, () => ({ worker: null, queue: [], binding: null, rows: 0 }));
+  const pending: Pending[] = Array.from({ length: n }, () => ({ worker: null, queue: [], binding: null, rows: 0, held: null }));
   let current = 0;
   let launched = 0;
   let running = 0;
@@ -131,6 +161,10 @@ export function runWhole(opts: RunInputsOptions, jobs: number): Promise<InputRes
       while (!settled && current < n) {
         const p = pending[current];
         let done = false;
+        if (p.held) {
+          p.held.flush(opts.sink);
+          p.held = null;
+        }
         while (p.queue.length > 0) {
           const m = p.queue.shift()!;
           if (m.type === 'bound') p.binding = m.binding;
@@ -165,7 +199,12 @@ export function runWhole(opts: RunInputsOptions, jobs: number): Promise<InputRes
         running++;
         let finished = false;
         w.on('message', (m: WorkerMessage) => {
-          if (m.type === 'findings' || m.type === 'bound' || m.type === 'done' || m.type === 'error') p.queue.push(m);
+          if (m.type === 'findings' && index !== current) {
+            // Not this input's turn yet: its findings wait on disk, in order, before anything queued after them.
+            const held = (p.held ??= new HeldFindings());
+            for (const f of m.findings) held.add(f);
+            p.queue.push({ ...m, findings: [] });
+          } else if (m.type === 'findings' || m.type === 'bound' || m.type === 'done' || m.type === 'error') p.queue.push(m);
           // Findings wait in memory only while an earlier input is still running.
           if (m.type === 'findings') w.postMessage({ type: 'ack' });
           if (m.type === 'done' || m.type === 'error') {
