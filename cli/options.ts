@@ -52,5 +52,16 @@ export function selectionFrom(flags: SelectionFlags): RuleSelection {
   return { only: list(flags.rules), skip: list(flags.skip), params };
 }
 
+/** How the inputs are read and bound: the options `check` and `columns` share. */
+export interface InputFlags {
+  bind: string[];
+  unit: string[];
+  binding?: string;
+  format?: string;
+  delimiter?: string;
+  hdu?: number;
+  table?: number;
+}
+
 export type FailLevel = Severity | 'never';
 export const FAIL_LEVELS: readonly FailLevel[] = ['error', 'warning', 'note', 'never'];

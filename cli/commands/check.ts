@@ -2,7 +2,7 @@ import { SEVERITIES, severityRank, type Finding, type FindingSink, type Severity
 import { selectRules } from '../../rules/engine/runner.js';
 import { ALL_RULES } from '../../rules/checks/index.js';
 import { readBindingFile, withCommandLine } from '../binding/binding-file.js';
-import { bindOptionsFrom, selectionFrom, type FailLevel, type SelectionFlags } from '../options.js';
+import { bindOptionsFrom, selectionFrom, type FailLevel, type InputFlags, type SelectionFlags } from '../options.js';
 import { AcceptedSet, readAccepted } from '../reports/accepted.js';
 import { fingerprint, inputName } from '../reports/fingerprint.js';
 import { writeHtml } from '../reports/html.js';
@@ -49,20 +49,13 @@ function jobsFrom(value: string | undefined): number {
   return n;
 }
 
-export interface CheckFlags extends SelectionFlags {
+export interface CheckFlags extends SelectionFlags, InputFlags {
   report?: string;
   sarif?: string;
   html?: string;
   htmlRows?: string;
   accepted?: string;
   failOn: FailLevel;
-  bind: string[];
-  unit: string[];
-  binding?: string;
-  format?: string;
-  delimiter?: string;
-  hdu?: number;
-  table?: number;
   batchSize?: string;
   jobs?: string;
   shard?: string;
@@ -148,6 +141,7 @@ export async function checkCommand(paths: string[], flags: CheckFlags): Promise<
   process.once('SIGINT', onSignal);
   process.once('SIGTERM', onSignal);
   const shard = shardFrom(flags.shard);
+  const jobs = jobsFrom(flags.jobs);
   const mine = shardInputs(paths.length, shard);
   try {
     const results = await runInputs({
@@ -161,7 +155,7 @@ export async function checkCommand(paths: string[], flags: CheckFlags): Promise<
       hdu: flags.hdu,
       table: flags.table,
       batchSize: flags.batchSize ? Number(flags.batchSize) : undefined,
-      jobs: jobsFrom(flags.jobs),
+      jobs,
       sink: dispatch,
       progress,
       observe: plot ? (b) => plot.observe(b) : undefined,
@@ -180,7 +174,7 @@ export async function checkCommand(paths: string[], flags: CheckFlags): Promise<
       failOn: flags.failOn,
       failed,
       accepted: { matched: accepted.accepted, stale },
-      cost: runCost(started, results.reduce((a, r) => a + r.summary.rows, 0), jobsFrom(flags.jobs)),
+      cost: runCost(started, results.reduce((a, r) => a + r.summary.rows, 0), jobs),
     };
     writer?.commit({
       inputs: results.map((r) => r.summary),

@@ -2,17 +2,10 @@ import { bindColumns } from '../binding/bind.js';
 import type { Binding } from '../binding/types.js';
 import { readBindingFile, withCommandLine } from '../binding/binding-file.js';
 import { explainBinding } from '../binding/explain.js';
-import { bindOptionsFrom } from '../options.js';
+import { bindOptionsFrom, type InputFlags } from '../options.js';
 import { openCatalog } from '../readers/open.js';
 
-export interface ColumnsFlags {
-  bind: string[];
-  unit: string[];
-  binding?: string;
-  format?: string;
-  delimiter?: string;
-  hdu?: number;
-  table?: number;
+export interface ColumnsFlags extends InputFlags {
   json?: boolean;
 }
 

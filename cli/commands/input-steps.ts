@@ -72,8 +72,15 @@ function sampleOf(batches: RawBatch[]): RawBatch | null {
     return parts[0];
   });
   const length = batches.reduce((a, b) => a + b.length, 0);
-  const lines = first.lines ? new Int32Array(batches.flatMap((b) => [...(b.lines ?? new Int32Array(b.length))])) : null;
-  return { length, firstRow: first.firstRow, lines, columns, malformed: batches.flatMap((b) => b.malformed) };
+  const lines = first.lines ? new Int32Array(length) : null;
+  const malformed: RawBatch['malformed'] = [];
+  let at = 0;
+  for (const b of batches) {
+    if (lines && b.lines) lines.set(b.lines, at);
+    for (const m of b.malformed) malformed.push(m.index < 0 ? m : { ...m, index: m.index + at });
+    at += b.length;
+  }
+  return { length, firstRow: first.firstRow, lines, columns, malformed };
 }
 
 /** Indices of every column the binding reads: values, their uncertainties, and text columns. */

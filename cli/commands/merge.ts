@@ -42,6 +42,7 @@ class ShardReader {
   private readonly lines: AsyncIterator<string>;
   private inFindings = false;
   private seenFindings = false;
+  private skipping = false;
   private tailText: string[] = [];
   private head: StoredFinding | null = null;
   private lineNo = 0;
@@ -77,6 +78,8 @@ class ShardReader {
           this.inFindings = false;
           continue;
         }
+        // Reading for the tail only: the findings are parsed in the second pass, not twice.
+        if (this.skipping) continue;
         const text = line.endsWith(',') ? line.slice(0, -1) : line;
         try {
           this.head = JSON.parse(text) as StoredFinding;
@@ -97,6 +100,7 @@ class ShardReader {
 
   /** The inputs, bindings, rules, summary and shard; read after the last finding. */
   async tail(): Promise<ShardTail> {
+    this.skipping = true;
     while ((await this.take()) !== null);
     try {
       return JSON.parse(`{${this.tailText.join('\n').replace(/}\s*$/, '')}}`) as ShardTail;

@@ -17,14 +17,18 @@ export function rowFinding(batch: Batch, index: number, parts: RowFindingParts):
 
 /** A finding about a row known by its number, for rules that judge rows after their batch has gone. */
 export function rowFindingAt(input: number, row: number, line: number | null, id: string | null, parts: RowFindingParts): Finding {
+  return finding(input, 'row', row, line, id === '' ? null : id, parts);
+}
+
+function finding(input: number, scope: Finding['scope'], row: number | null, line: number | null, id: string | null, parts: RowFindingParts): Finding {
   return {
     rule: parts.rule,
     severity: parts.severity,
     input,
-    scope: 'row',
+    scope,
     row,
     line,
-    id: id === '' ? null : id,
+    id,
     columns: parts.columns,
     values: parts.values,
     expected: parts.expected ?? null,
@@ -47,22 +51,7 @@ export const COLUMN_VERDICT_MIN_ROWS = 10;
 
 /** A finding that speaks for a whole column rather than one row. */
 export function columnFinding(parts: ColumnFindingParts): Finding {
-  return {
-    rule: parts.rule,
-    severity: parts.severity,
-    input: parts.input,
-    scope: 'column',
-    row: null,
-    line: null,
-    id: null,
-    columns: parts.columns,
-    values: parts.values,
-    expected: parts.expected ?? null,
-    message: parts.message,
-    suggestion: parts.suggestion ?? null,
-    cause: null,
-    related: [],
-  };
+  return finding(parts.input, 'column', null, null, null, parts);
 }
 
 /**

@@ -19,7 +19,8 @@ import { bindColumns, toBatch } from '../../cli/binding/bind.js';
 import type { Binding, BindOptions } from '../../cli/binding/types.js';
 import { openCatalog } from '../../cli/readers/open.js';
 import type { RawBatch } from '../../cli/readers/types.js';
-import { KINDS, cloneColumn, getCell, rng, setCell, shuffle, type Kind, type Plant, type RowView } from './plant.js';
+import { rng } from '../helpers/rng.js';
+import { KINDS, cloneColumn, getCell, setCell, shuffle, type Kind, type Plant, type RowView } from './plant.js';
 
 export interface CatalogSpec {
   name: string;

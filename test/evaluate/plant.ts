@@ -8,9 +8,6 @@ import type { Finding } from '../../rules/engine/types.js';
 import { L_SUN_W, M_SUN_KG, R_SUN_M } from '../../rules/physics/constants.js';
 import { eddingtonPerSolarMass } from '../../rules/physics/eddington.js';
 import type { RawColumn } from '../../cli/readers/types.js';
-import { rng } from '../helpers/rng.js';
-
-export { rng };
 
 export function shuffle<T>(a: T[], r: () => number): T[] {
   for (let i = a.length - 1; i > 0; i--) {

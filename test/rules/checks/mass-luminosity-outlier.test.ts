@@ -7,7 +7,7 @@ import type { Quantity } from '../../../rules/engine/quantities.js';
 import { InputRun, selectRules } from '../../../rules/engine/runner.js';
 import type { Batch, Finding } from '../../../rules/engine/types.js';
 import { makeBatch, runRules } from '../../helpers/batch.js';
-import { rng } from '../../evaluate/plant.js';
+import { rng } from '../../helpers/rng.js';
 
 const run = (cols: Parameters<typeof makeBatch>[0], text: Parameters<typeof makeBatch>[1] = {}, params: Record<string, string> = {}) =>
   runRules([massLuminosityOutlier], [makeBatch(cols, text)], { params: { 'mass-luminosity-outlier': params } });

@@ -6,7 +6,7 @@ import {
   type CalibrationState,
 } from '../../../rules/physics/calibration.js';
 import { EKER_2018 } from '../../../rules/physics/mass-luminosity.js';
-import { rng } from '../../evaluate/plant.js';
+import { rng } from '../../helpers/rng.js';
 
 /** Standard normal deviates from a seeded uniform generator (Box-Muller, common practice). */
 function normal(r: () => number): () => number {
