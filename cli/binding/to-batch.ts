@@ -140,5 +140,5 @@ export function toBatch(raw: RawBatch, binding: Binding, input: number): Batch {
   }
   problems.sort((a, b) => a.index - b.index);
 
-  return { input, length: n, firstRow: raw.firstRow, lines: raw.lines, quantities, text, problems, unusable: {} };
+  return { input, length: n, firstRow: raw.firstRow, lines: raw.lines, quantities, text, problems, unusable: {}, ...(binding.facts ? { facts: binding.facts } : {}) };
 }

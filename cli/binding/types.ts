@@ -45,6 +45,8 @@ export interface Binding {
    * so that `1,500` reads the same in every batch; absent: decided per batch.
    */
   decimalCommas?: number[];
+  /** Numbers the rules asked to have measured on the sample (SAMPLE_FACTS), handed to every batch. */
+  facts?: Record<string, number>;
 }
 
 /** A configuration problem: unknown unit, ambiguous binding. Reported in one line, exit code 2. */

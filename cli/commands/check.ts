@@ -1,4 +1,4 @@
-import { SEVERITIES, severityRank, type Finding, type FindingSink, type Severity } from '../../rules/engine/types.js';
+import { SEVERITIES, severityRank, type Batch, type Finding, type FindingSink, type Severity } from '../../rules/engine/types.js';
 import { selectRules } from '../../rules/engine/runner.js';
 import { ALL_RULES } from '../../rules/checks/index.js';
 import { readBindingFile, withCommandLine } from '../binding/binding-file.js';
@@ -12,7 +12,8 @@ import { SarifWriter } from '../reports/sarif.js';
 import { TerminalCollector, renderTerminal } from '../reports/terminal.js';
 import { TOOL } from '../version.js';
 import { ConfigError } from '../../rules/engine/params.js';
-import { defaultJobs, runInputs } from './run-inputs.js';
+import { defaultJobs, runInputs, type InputResult } from './run-inputs.js';
+import { planByteShard, runByteShard, type ByteShardPlan, type ShardRange } from './byte-shard.js';
 
 /** What the run cost: wall time, throughput and the peak memory of the process (all its threads). */
 export function runCost(started: number, rows: number, jobs: number) {
@@ -142,24 +143,34 @@ export async function checkCommand(paths: string[], flags: CheckFlags): Promise<
   process.once('SIGTERM', onSignal);
   const shard = shardFrom(flags.shard);
   const jobs = jobsFrom(flags.jobs);
-  const mine = shardInputs(paths.length, shard);
   try {
-    const results = await runInputs({
-      paths: mine.map((i) => paths[i]),
-      inputs: mine,
-      rules,
-      selection,
-      bind,
+    const readerFlags = {
       format: flags.format,
       delimiter: flags.delimiter,
       hdu: flags.hdu,
       table: flags.table,
       batchSize: flags.batchSize ? Number(flags.batchSize) : undefined,
+    };
+    // One file and several shards: each takes a byte range of it, where the file allows.
+    let byteShard: ByteShardPlan | null = null;
+    if (shard && shard.count > 1 && paths.length === 1) {
+      if (!flags.report) throw new ConfigError('a shard of a single file needs --report: merge reads the shard reports and the state folders beside them');
+      byteShard = await planByteShard(paths[0], { rules, selection, bind, ...readerFlags }, shard.index, shard.count);
+    }
+    const mine = byteShard ? [0] : shardInputs(paths.length, shard);
+    const runOptions = {
+      paths: mine.map((i) => paths[i]),
+      inputs: mine,
+      rules,
+      selection,
+      bind,
+      ...readerFlags,
       jobs,
       sink: dispatch,
       progress,
-      observe: plot ? (b) => plot.observe(b) : undefined,
-    });
+      observe: plot ? (b: Batch) => plot.observe(b) : undefined,
+    };
+    const results: (InputResult & { range?: ShardRange })[] = byteShard ? [await runByteShard(runOptions, byteShard, flags.report!)] : await runInputs(runOptions);
     if (isTty && lastProgress) process.stderr.write('\r\x1b[K');
     const failed =
       flags.failOn !== 'never' && SEVERITIES.some((s) => dispatch.failing[s] > 0 && severityRank(s) >= severityRank(flags.failOn as Severity));
@@ -181,7 +192,7 @@ export async function checkCommand(paths: string[], flags: CheckFlags): Promise<
       bindings: results.map((r) => ({ input: r.summary.index, columns: r.binding.columns, notes: r.binding.notes })),
       rules: ruleRows.map((r) => ({ id: r.id, title: r.title, severity: r.severity, perInput: r.reports.map((x, i) => ({ input: results[i].summary.index, ...x })) })),
       summary,
-      shard: shard ? { ...shard, paths } : undefined,
+      shard: shard ? { ...shard, paths, ...(results[0]?.range ? { range: results[0].range } : {}) } : undefined,
     });
     sarif?.commit();
     if (flags.html && plot && htmlCollector) {

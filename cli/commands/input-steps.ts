@@ -1,6 +1,9 @@
 /** The steps of checking one input that the single-thread run and the worker threads share. */
 import { isNumericQuantity, type Quantity } from '../../rules/engine/quantities.js';
+import type { Batch } from '../../rules/engine/types.js';
 import { bindColumns } from '../binding/bind.js';
+import { toBatch } from '../binding/to-batch.js';
+import { SAMPLE_FACTS } from '../../rules/checks/index.js';
 import { columnWritesDecimalComma } from '../binding/cells.js';
 import type { Binding, BindOptions } from '../binding/types.js';
 import { openCatalog } from '../readers/open.js';
@@ -21,7 +24,7 @@ export const SAMPLE_ROWS = 16384;
  * takes), and tells the reader which columns it may skip from then on. Returns the batches read
  * ahead, to be checked first, and the iterator for the rest.
  */
-export async function bindFromFirstBatch(reader: CatalogReader, bind: BindOptions) {
+export async function bindFromFirstBatch(reader: CatalogReader, bind: BindOptions, input = 0) {
   const it = reader.batches()[Symbol.asyncIterator]();
   const ahead: RawBatch[] = [];
   let rows = 0;
@@ -39,13 +42,26 @@ export async function bindFromFirstBatch(reader: CatalogReader, bind: BindOption
       .flatMap((b) => [b.columnIndex, ...b.errors.map((e) => e.columnIndex)])
       .filter((i) => columnWritesDecimalComma(sample.columns[i]));
   }
-  // Readers that decode column by column (Parquet, FITS) may now skip what no rule reads, and the
-  // CSV reader reads the numeric columns straight into numbers.
+  // The sample as a batch, for the rules that judge against the whole column (RunContext.sample).
+  let sampleBatch: Batch | undefined;
+  if (sample) {
+    const batch = toBatch(sample, binding, input);
+    binding.facts = Object.fromEntries(SAMPLE_FACTS.map((f) => [f.name, f.measure(batch)]));
+    sampleBatch = { ...batch, facts: binding.facts };
+  }
+  selectBound(reader, binding);
+  return { it, ahead, binding, sample, sampleBatch };
+}
+
+/**
+ * Readers that decode column by column (Parquet, FITS) may skip what no rule reads, and the CSV
+ * reader reads the numeric columns straight into numbers.
+ */
+export function selectBound(reader: CatalogReader, binding: Binding): void {
   if (canSelectColumns(reader)) {
     const text = binding.columns.filter((b) => !isNumericQuantity(b.quantity)).map((b) => b.columnIndex);
     reader.selectColumns(boundColumns(binding), text);
   }
-  return { it, ahead, binding };
 }
 
 /** The first SAMPLE_ROWS rows as one raw batch (the read-ahead batches joined), or null for none. */

@@ -16,9 +16,19 @@ import { JsonReportWriter, REPORT_FORMAT } from '../reports/json-report.js';
 import { SarifWriter } from '../reports/sarif.js';
 import { TerminalCollector, renderTerminal, type InputSummary } from '../reports/terminal.js';
 import { TOOL } from '../version.js';
+import { InputRun, selectRules, shiftFinding } from '../../rules/engine/runner.js';
+import type { Quantity } from '../../rules/engine/quantities.js';
+import type { RowShift } from '../../rules/engine/types.js';
+import { AcceptedSet, readAccepted } from '../reports/accepted.js';
+import { fingerprint, inputName } from '../reports/fingerprint.js';
+import { FileSpill } from '../spill/file-spill.js';
+import { joinedReads } from '../parallel/threads.js';
+import { readShardState, type ShardRange } from './byte-shard.js';
 
 export interface MergeFlags {
   report: string;
+  /** Accepted findings, for the findings a merge of byte-range shards makes itself (the whole-input judgements). */
+  accepted?: string;
   sarif?: string;
   failOn?: FailLevel;
   color: boolean;
@@ -34,7 +44,7 @@ interface ShardTail {
   bindings: { input: number }[];
   rules: { id: string; title: string; severity: Severity; perInput: (RuleReport & { input: number })[] }[];
   summary: { failOn: FailLevel; accepted: { matched: number; stale: { fingerprint: string }[] }; cost?: unknown };
-  shard?: { index: number; count: number; paths: string[] };
+  shard?: { index: number; count: number; paths: string[]; range?: ShardRange };
 }
 
 /** One shard report read as lines: the findings one by one, then the tail. */
@@ -138,6 +148,9 @@ export async function mergeCommand(paths: string[], flags: MergeFlags): Promise<
   }
   const failOn = flags.failOn ?? tails[0].summary.failOn;
   const rules = ruleIds.map((id) => ALL_RULES.find((r) => r.meta.id === id)).filter((r): r is Rule => r !== undefined);
+  const ranged = tails.filter((t) => t.shard?.range).length;
+  if (ranged > 0 && ranged < tails.length) throw new ConfigError('these reports mix shards of one file (byte ranges) with shards by file');
+  if (ranged > 0) return mergeRanges(paths, tails, byIndex, rules, failOn, flags);
 
   const writer = new JsonReportWriter(flags.report, TOOL);
   const sarif = flags.sarif ? new SarifWriter(flags.sarif, TOOL, rules, all) : null;
@@ -213,4 +226,130 @@ function mergedCost(tails: ShardTail[]) {
   const wall = Math.max(0, ...costs.map((c) => c?.wallSeconds ?? 0));
   const rows = tails.reduce((a, t) => a + t.inputs.reduce((b, i) => b + i.rows, 0), 0);
   return { wallSeconds: wall, rowsPerSecond: Math.round(rows / Math.max(wall, 1e-3)), peakRssMb: Math.max(0, ...costs.map((c) => c?.peakRssMb ?? 0)) };
+}
+
+/**
+ * Shards that each checked a byte range of one file: their findings renumbered as rows of the
+ * whole file and written in range order, then the rules' saved states absorbed in the same
+ * order by one run that finishes the input, whose end-of-input findings (column verdicts, held
+ * rows, duplicates) come last, as in a single run.
+ */
+async function mergeRanges(paths: string[], tails: ShardTail[], byIndex: Map<number, number>, rules: Rule[], failOn: FailLevel, flags: MergeFlags): Promise<number> {
+  const count = tails.length;
+  const order = [...Array(count).keys()].map((i) => byIndex.get(i + 1)!);
+  const path = tails[0].shard!.paths[0];
+  const ranges = order.map((k) => tails[k].shard!.range!);
+  for (let j = 1; j < count; j++) {
+    if (ranges[j].start !== ranges[j - 1].end) throw new ConfigError(`${paths[order[j]]}: its byte range does not follow the previous shard's (shards of different versions of the file?)`);
+  }
+  // Shards number lines as in the file; rows from their range's start.
+  const shifts: RowShift[] = [];
+  let rowsBefore = 0;
+  for (const r of ranges) {
+    shifts.push({ rows: rowsBefore, lines: 0 });
+    rowsBefore += r.rows;
+  }
+  const first = tails[order[0]];
+  const selection = {
+    only: first.rules.map((r) => r.id),
+    params: Object.fromEntries(first.rules.map((r) => [r.id, { ...(r.perInput[0]?.params ?? {}) }])),
+  };
+  const binding = first.bindings[0] as unknown as { input: number; columns: { quantity: Quantity; column: string; unit: string }[] };
+  const bound = new Map<Quantity, { column: string; unit: string }>();
+  for (const c of binding.columns) bound.set(c.quantity, { column: c.column, unit: c.unit });
+
+  const accepted = new AcceptedSet(flags.accepted ? readAccepted(flags.accepted) : null);
+  const name = inputName(path);
+  const writer = new JsonReportWriter(flags.report, TOOL);
+  const sarif = flags.sarif ? new SarifWriter(flags.sarif, TOOL, rules, [path]) : null;
+  const collector = new TerminalCollector(Math.max(0, Number(flags.show) || 0));
+  const totals: Count3 = { error: 0, warning: 0, note: 0 };
+  const failing: Count3 = { error: 0, warning: 0, note: 0 };
+  const rowsWithFindings = new Set<number>();
+  const emit = (finding: Finding, fp: string, ok: boolean) => {
+    writer.push(finding, fp, ok);
+    sarif?.push(finding);
+    collector.push(finding);
+    totals[finding.severity]++;
+    if (!ok) failing[finding.severity]++;
+    if (finding.row !== null) rowsWithFindings.add(finding.row);
+  };
+  try {
+    const final = new InputRun(selectRules(ALL_RULES, selection), selection, bound, {
+      push: (f) => {
+        const fp = fingerprint(f, name);
+        emit(f, fp, accepted.match(fp));
+      },
+    }, undefined, undefined, new FileSpill({ keepAbsorbed: true }));
+    // Shard by shard: absorb its rules' states, then hand on its findings, renumbered, through
+    // the rules' filters (a rule with a cap may drop some a later range listed).
+    const ends = [];
+    for (let j = 0; j < count; j++) {
+      const k = order[j];
+      const saved = readShardState(paths[k], ranges[j]);
+      final.absorbState(saved.state, shifts[j]);
+      ends.push({ stats: saved.stats, counts: saved.counts, notes: tails[k].inputs[0]?.notes ?? [] });
+      const stored = new Map<Finding, { fp: string; ok: boolean }>();
+      const admit = final.admitting({
+        push: (f) => {
+          const s = stored.get(f)!;
+          stored.delete(f);
+          emit(f, s.fp, s.ok);
+        },
+      });
+      const reader = new ShardReader(paths[k]);
+      for (let f = await reader.take(); f !== null; f = await reader.take()) {
+        const { fingerprint: fp, accepted: ok, ...finding } = f;
+        const moved = shiftFinding(finding, shifts[j]);
+        stored.set(moved, { fp, ok });
+        admit.push(moved);
+      }
+      admit.end();
+    }
+    const reports = final.finish();
+    const read = joinedReads(ends);
+    const binderNotes = (first.bindings[0] as unknown as { notes?: string[] }).notes ?? [];
+    const input: InputSummary = {
+      ...first.inputs[0],
+      records: read.stats.records,
+      rows: read.stats.rows,
+      unparseableRecords: read.stats.unparseable,
+      rowsWithFindings: rowsWithFindings.size,
+      notes: read.notes.filter((n) => !binderNotes.includes(n)).concat(binderNotes),
+    };
+    const ruleRows = first.rules.map((r) => ({ id: r.id, title: r.title, severity: r.severity, perInput: [{ input: 0, ...reports.find((x) => x.id === r.id)! }] }));
+    const byRule: Record<string, Count3> = {};
+    for (const r of ruleRows) byRule[r.id] = { ...r.perInput[0].findings };
+    const failed = failOn !== 'never' && SEVERITIES.some((s) => failing[s] > 0 && severityRank(s) >= severityRank(failOn as Severity));
+    let stale = first.summary.accepted.stale;
+    for (const t of tails) {
+      const there = new Set(t.summary.accepted.stale.map((e) => e.fingerprint));
+      stale = stale.filter((e) => there.has(e.fingerprint));
+    }
+    if (flags.accepted) {
+      const notMatchedHere = new Set(accepted.stale().map((e) => e.fingerprint));
+      stale = stale.filter((e) => notMatchedHere.has(e.fingerprint));
+    }
+    const summary = {
+      findings: totals,
+      byRule,
+      rows: input.rows,
+      rowsWithFindings: input.rowsWithFindings,
+      failOn,
+      failed,
+      accepted: { matched: tails.reduce((a, t) => a + t.summary.accepted.matched, 0) + accepted.accepted, stale },
+      cost: { ...mergedCost(tails), shards: order.map((k) => tails[k].summary.cost ?? null) },
+    };
+    writer.commit({ inputs: [input], bindings: [first.bindings[0]], rules: ruleRows, summary });
+    sarif?.commit();
+    if (!flags.quiet) {
+      process.stdout.write(renderTerminal([input], ruleRows.map((r) => ({ id: r.id, reports: r.perInput })), collector, { color: flags.color, failOn, failed }));
+      process.stdout.write(`merged ${count} shard report${count === 1 ? '' : 's'} (byte ranges of ${path}) into ${flags.report}\n`);
+    }
+    return failed ? 1 : 0;
+  } catch (e) {
+    writer.abort();
+    sarif?.abort();
+    throw e;
+  }
 }

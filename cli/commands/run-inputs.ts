@@ -4,7 +4,9 @@ import { InputRun, type RuleReport, type RuleSelection } from '../../rules/engin
 import type { Batch, Finding, FindingSink, PrepassState, Rule } from '../../rules/engine/types.js';
 import { toBatch } from '../binding/bind.js';
 import type { Binding, BindOptions } from '../binding/types.js';
-import { runPipelined, runWhole } from '../parallel/threads.js';
+import { runPipelined, runRanges, runWhole } from '../parallel/threads.js';
+import { csvLayout, planRanges } from '../readers/byte-range.js';
+import { MemorySpill } from '../../rules/engine/spill.js';
 import type { Position, ReaderSettings } from '../parallel/protocol.js';
 import type { RawBatch } from '../readers/types.js';
 import type { InputSummary } from '../reports/terminal.js';
@@ -88,12 +90,37 @@ export async function runInputs(opts: RunInputsOptions): Promise<InputResult[]> 
     // Several inputs: one per thread. Plots need every batch here, so they take the other way.
     if (opts.paths.length > 1 && !opts.observe) return runWhole(opts, jobs);
     const results: InputResult[] = [];
-    for (let index = 0; index < opts.paths.length; index++) results.push(await runPipelined(index, opts));
+    for (let index = 0; index < opts.paths.length; index++) results.push((await runSplit(index, opts, jobs)) ?? (await runPipelined(index, opts)));
     return results;
   }
   const results: InputResult[] = [];
   for (let index = 0; index < opts.paths.length; index++) results.push(await runOne(index, opts, prepass));
   return results;
+}
+
+/**
+ * One plain CSV file in byte ranges, a thread per range; null when it cannot be split (another
+ * format, compressed or not UTF-8, quoted fields across every possible cut, or a rule that
+ * cannot save its state), and the caller takes the two-thread pipeline instead.
+ */
+export async function runSplit(pos: number, opts: RunInputsOptions, jobs: number): Promise<InputResult | null> {
+  if (opts.observe) return null;
+  const reader = await openInput(opts.paths[pos], opts);
+  let binding: Binding;
+  let sample: Batch | undefined;
+  let layout;
+  try {
+    ({ binding, sampleBatch: sample } = await bindFromFirstBatch(reader, opts.bind, inputNumber(opts, pos)));
+    layout = await csvLayout(reader);
+  } finally {
+    await reader.close();
+  }
+  if (!layout) return null;
+  const probe = new InputRun(opts.rules, opts.selection, boundMap(binding), { push: () => undefined }, undefined, undefined, new MemorySpill());
+  if (!probe.splittable()) return null;
+  const ranges = await planRanges(layout, jobs);
+  if (!ranges) return null;
+  return runRanges(pos, opts, layout, ranges, binding, sample);
 }
 
 /** One input, all in this thread. */
@@ -102,9 +129,9 @@ async function runOne(pos: number, opts: RunInputsOptions, prepass?: Map<string,
   const index = inputNumber(opts, pos);
   const reader = await openInput(path, opts);
   try {
-    const { it, ahead, binding } = await bindFromFirstBatch(reader, opts.bind);
+    const { it, ahead, binding, sampleBatch } = await bindFromFirstBatch(reader, opts.bind, index);
     const tally = new RowTally(opts.sink);
-    const run = new InputRun(opts.rules, opts.selection, boundMap(binding), tally, undefined, prepass, FILE_SPILL);
+    const run = new InputRun(opts.rules, opts.selection, boundMap(binding), tally, undefined, prepass, FILE_SPILL, sampleBatch);
     let rows = 0;
     const feed = (raw: RawBatch) => {
       const batch = toBatch(raw, binding, index);

@@ -7,7 +7,8 @@ import { ALL_RULES } from '../../rules/checks/index.js';
 import { InputRun, selectRules } from '../../rules/engine/runner.js';
 import type { Batch, Finding } from '../../rules/engine/types.js';
 import { toBatch } from '../binding/to-batch.js';
-import { bindFromFirstBatch, boundMap, openInput } from '../commands/input-steps.js';
+import { bindFromFirstBatch, boundMap, openInput, selectBound } from '../commands/input-steps.js';
+import { openCsvRange } from '../readers/byte-range.js';
 import { FILE_SPILL } from '../spill/file-spill.js';
 import { BATCHES_IN_FLIGHT, type WorkerMessage, type WorkerTask } from './protocol.js';
 import type { RawBatch } from '../readers/types.js';
@@ -52,12 +53,36 @@ function ownedBuffers(batch: Batch): ArrayBuffer[] {
   return [...seen];
 }
 
+/**
+ * One byte range of a file, every rule: findings numbered within the range go back per batch, and
+ * the rules' states at the end, for the run that finishes the input.
+ */
+async function runRange(range: NonNullable<WorkerTask['range']>): Promise<void> {
+  const rules = selectRules(ALL_RULES, task.selection);
+  const { reader, counts } = await openCsvRange(range.layout, range.bytes, { batchSize: task.reader.batchSize });
+  try {
+    selectBound(reader, range.binding);
+    const found: Finding[] = [];
+    const run = new InputRun(rules, task.selection, boundMap(range.binding), { push: (f) => found.push(f) }, undefined, undefined, FILE_SPILL, range.sample);
+    for await (const raw of reader.batches()) {
+      await credit();
+      run.processBatch(toBatch(raw, range.binding, task.input));
+      send({ type: 'findings', findings: found.splice(0), rows: raw.length, position: null });
+    }
+    send({ type: 'range-done', stats: { ...reader.stats }, notes: [...(reader.notes ?? [])], counts, state: run.saveState() });
+  } finally {
+    await reader.close();
+  }
+}
+
 async function run(): Promise<void> {
+  if (task.mode === 'range') return runRange(task.range!);
   const rules = selectRules(ALL_RULES, task.selection);
   const reader = await openInput(task.path, task.reader);
   try {
-    const { it, ahead, binding } = await bindFromFirstBatch(reader, task.bind);
-    send({ type: 'bound', binding });
+    const { it, ahead, binding, sampleBatch } = await bindFromFirstBatch(reader, task.bind, task.input);
+    // The other half of a pipeline judges against the same sample.
+    send({ type: 'bound', binding, sample: task.mode === 'whole' ? undefined : sampleBatch });
     const whole = task.mode === 'whole';
     const found: Finding[] = [];
     const rowsWithFindings = new Set<number>();
@@ -67,7 +92,7 @@ async function run(): Promise<void> {
         if (f.row !== null) rowsWithFindings.add(f.row);
       },
     };
-    const run = new InputRun(rules, task.selection, boundMap(binding), sink, whole ? undefined : { from: 0, to: task.splitAt }, undefined, FILE_SPILL);
+    const run = new InputRun(rules, task.selection, boundMap(binding), sink, whole ? undefined : { from: 0, to: task.splitAt }, undefined, FILE_SPILL, sampleBatch);
     const feed = async (raw: RawBatch) => {
       const batch = toBatch(raw, binding, task.input);
       await credit();

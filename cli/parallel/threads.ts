@@ -9,8 +9,11 @@
  */
 import { Worker } from 'node:worker_threads';
 import { ConfigError } from '../../rules/engine/params.js';
-import { InputRun, type RuleReport } from '../../rules/engine/runner.js';
-import type { Finding, Rule } from '../../rules/engine/types.js';
+import { InputRun, shiftFinding, type InputRunState, type RuleReport } from '../../rules/engine/runner.js';
+import type { Batch, Finding, RowShift, Rule } from '../../rules/engine/types.js';
+import { blankLinesNote } from '../readers/csv.js';
+import type { ByteRange, CsvLayout, RangeCounts } from '../readers/byte-range.js';
+import type { ReaderStats } from '../readers/types.js';
 import { BindingError, type Binding } from '../binding/types.js';
 import { boundMap, inputSummary } from '../commands/input-steps.js';
 import { RowTally, inputNumber, type InputResult, type RunInputsOptions } from '../commands/run-inputs.js';
@@ -35,8 +38,9 @@ export function splitPoint(rules: readonly Rule[]): number {
   return Math.max(1, Math.min(rules.length - 1, Math.round(rules.length * 0.35)));
 }
 
-function task(pos: number, opts: RunInputsOptions, mode: WorkerTask['mode'], splitAt: number): WorkerTask {
+function task(pos: number, opts: RunInputsOptions, mode: WorkerTask['mode'], splitAt: number, range?: WorkerTask['range']): WorkerTask {
   return {
+    range,
     input: inputNumber(opts, pos),
     path: opts.paths[pos],
     reader: { format: opts.format, delimiter: opts.delimiter, hdu: opts.hdu, table: opts.table, batchSize: opts.batchSize },
@@ -82,7 +86,7 @@ export function runPipelined(pos: number, opts: RunInputsOptions): Promise<Input
       try {
         if (m.type === 'bound') {
           binding = m.binding;
-          run = new InputRun(rules, opts.selection, boundMap(binding), tally, { from: splitAt, to: rules.length }, undefined, FILE_SPILL);
+          run = new InputRun(rules, opts.selection, boundMap(binding), tally, { from: splitAt, to: rules.length }, undefined, FILE_SPILL, m.sample);
         } else if (m.type === 'batch') {
           worker.postMessage({ type: 'ack' });
           run!.processBatch(m.batch, m.findings);
@@ -229,3 +233,118 @@ export function runWhole(opts: RunInputsOptions, jobs: number): Promise<InputRes
   });
 }
 
+
+/** What the ranges of one file add up to, once each has ended. */
+export interface RangeEnd {
+  stats: ReaderStats;
+  notes: string[];
+  counts: RangeCounts;
+  state: InputRunState;
+}
+
+/**
+ * The reader facts of the ranges joined into those of one read: counts added, each distinct
+ * note once (every range reads the header, so its notes come from each), and the blank lines
+ * inside the data as the one note a whole read gives.
+ */
+export function joinedReads(ends: readonly Pick<RangeEnd, 'stats' | 'counts' | 'notes'>[]): { stats: ReaderStats; notes: string[] } {
+  const stats: ReaderStats = { records: 0, rows: 0, unparseable: 0 };
+  const notes: string[] = [];
+  let blank = 0;
+  let firstBlank = 0;
+  ends.forEach((e) => {
+    stats.records += e.stats.records;
+    stats.rows += e.stats.rows;
+    stats.unparseable += e.stats.unparseable;
+    for (const n of e.notes) if (!notes.includes(n)) notes.push(n);
+    if (e.counts.blanks.count > 0) {
+      if (blank === 0) firstBlank = e.counts.blanks.firstLine;
+      blank += e.counts.blanks.count;
+    }
+  });
+  if (blank > 0) notes.push(blankLinesNote(blank, firstBlank));
+  return { stats, notes };
+}
+
+/**
+ * One CSV file in byte ranges, a worker per range with every rule. The first range's findings are
+ * handed on as they come; a later range's wait in temporary files until it and the ranges before it
+ * have ended. One run here absorbs the ranges' rule states in order, each range's findings pass
+ * through the rules' filters once its state is in (a rule with a cap may drop some), and the run
+ * finishes the input, so the findings and the accounting are those of one pass.
+ */
+export function runRanges(pos: number, opts: RunInputsOptions, layout: CsvLayout, ranges: readonly ByteRange[], binding: Binding, sample?: Batch): Promise<InputResult> {
+  const path = opts.paths[pos];
+  const index = inputNumber(opts, pos);
+  const tally = new RowTally(opts.sink);
+  const final = new InputRun(opts.rules, opts.selection, boundMap(binding), tally, undefined, undefined, FILE_SPILL, sample);
+  const n = ranges.length;
+  const workers: Worker[] = [];
+  const held: (HeldFindings | null)[] = new Array(n).fill(null);
+  const ends: (RangeEnd | null)[] = new Array(n).fill(null);
+  const shifts: RowShift[] = [{ rows: 0, lines: 0 }];
+  let current = 0;
+  let rows = 0;
+  return new Promise<InputResult>((resolve, reject) => {
+    let settled = false;
+    const fail = (e: unknown) => {
+      if (settled) return;
+      settled = true;
+      for (const w of workers) void w.terminate();
+      reject(e);
+    };
+    /** Moves on past every range that has ended, handing on the next one's held findings. */
+    const advance = () => {
+      while (current < n && ends[current]) {
+        const e = ends[current]!;
+        const shift = shifts[current];
+        final.absorbState(e.state, shift);
+        if (current > 0) {
+          // A later range's findings go through the rules' filters once its state is absorbed.
+          const admit = final.admitting(tally);
+          held[current]?.flush({ push: (f) => admit.push(shiftFinding(f, shift)) });
+          admit.end();
+          held[current] = null;
+        }
+        // Range readers number lines as in the file already; only rows move.
+        shifts[current + 1] = { rows: shift.rows + e.stats.rows, lines: 0 };
+        current++;
+      }
+      if (current < n || settled) return;
+      settled = true;
+      const reports = final.finish();
+      const { stats, notes } = joinedReads(ends as RangeEnd[]);
+      resolve({ binding, rules: reports, summary: inputSummary(index, path, layout.delimiter === '\t' ? 'tsv' : 'csv', stats, notes, binding, tally.rows.size) });
+    };
+    ranges.forEach((bytes, k) => {
+      const w = start(task(pos, opts, 'range', 0, { layout, bytes, binding, sample }));
+      workers.push(w);
+      let finished = false;
+      w.on('message', (m: WorkerMessage) => {
+        try {
+          if (m.type === 'findings') {
+            w.postMessage({ type: 'ack' });
+            // The first range's findings are final as they come; a later range's wait for its turn.
+            if (k === 0) for (const f of m.findings) tally.push(f);
+            else for (const f of m.findings) (held[k] ??= new HeldFindings()).add(f);
+            rows += m.rows;
+            opts.progress?.(path, rows, null);
+          } else if (m.type === 'range-done') {
+            finished = true;
+            ends[k] = { stats: m.stats, notes: m.notes, counts: m.counts, state: m.state };
+            advance();
+          } else if (m.type === 'error') {
+            finished = true;
+            fail(rebuilt(m));
+          }
+        } catch (e) {
+          fail(e);
+        }
+      });
+      w.on('error', fail);
+      w.on('exit', (code) => {
+        if (!finished) fail(new Error(`a worker thread stopped early (exit code ${code})`));
+      });
+    });
+  });
+}

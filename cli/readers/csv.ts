@@ -44,6 +44,22 @@ export interface CsvOptions extends ReaderOptions {
    * and the header line itself; may name the delimiter. Throwing aborts the open.
    */
   onPreamble?: (comments: readonly PreambleLine[], headerLine: string) => { delimiter?: string } | void;
+  /**
+   * For a reader over one byte range of a file: blank lines are counted (see `blanks`) but not
+   * noted, so the ranges' counts can be joined into the one note a whole read would give.
+   */
+  quietBlankLines?: boolean;
+  /**
+   * Physical lines between the header and the first line of the text that follows it, which the
+   * text leaves out (a byte range read after the header lines): line numbers count them.
+   */
+  linesSkipped?: number;
+}
+
+/** Blank lines inside the data: how many, and the physical line of the first (0 when none). */
+export interface BlankLines {
+  count: number;
+  firstLine: number;
 }
 
 export interface PreambleLine {
@@ -62,11 +78,19 @@ const HASH = 35;
 const QUOTE = 34;
 const CR_RE = /\r\n?/g;
 
+/** The note for blank lines inside the data. */
+export function blankLinesNote(count: number, firstLine: number): string {
+  return (
+    `${count} blank line${count === 1 ? '' : 's'} inside the data ` +
+    `(the first at line ${firstLine}) ${count === 1 ? 'was skipped; it is not a record' : 'were skipped; they are not records'}`
+  );
+}
+
 export async function openCsv(path: string, options: CsvOptions = {}): Promise<CatalogReader> {
   return opened(new CsvReader(path, options));
 }
 
-class CsvReader implements CatalogReader {
+export class CsvReader implements CatalogReader {
   format: 'csv' | 'tsv' = 'csv';
   readonly path: string;
   columns: ColumnMeta[] = [];
@@ -105,6 +129,7 @@ class CsvReader implements CatalogReader {
 
   private blankLines = 0;
   private firstBlankLine = 0;
+  private firstDataLine = 0;
   /** Comment lines above the header, kept only for an onPreamble hook. */
   private preamble: PreambleLine[] = [];
   private preambleChars = 0;
@@ -199,6 +224,8 @@ class CsvReader implements CatalogReader {
     const spanned = 1 + newlinesInFields(header);
     this.buf = this.buf.slice(skipNewlines(this.buf, 0, spanned));
     this.line += spanned;
+    this.firstDataLine = this.line;
+    this.line += this.options.linesSkipped ?? 0;
 
     const { names, notes } = uniqueColumnNames(header);
     this.notes.push(...notes);
@@ -231,15 +258,30 @@ class CsvReader implements CatalogReader {
       }
       this.builder.flush();
       while (this.ready.length > 0) yield this.ready.shift()!;
-      if (this.blankLines > 0) {
-        this.notes.push(
-          `${this.blankLines} blank line${this.blankLines === 1 ? '' : 's'} inside the data ` +
-            `(the first at line ${this.firstBlankLine}) ${this.blankLines === 1 ? 'was skipped; it is not a record' : 'were skipped; they are not records'}`,
-        );
+      if (this.blankLines > 0 && !this.options.quietBlankLines) {
+        this.notes.push(blankLinesNote(this.blankLines, this.firstBlankLine));
       }
     } finally {
       await this.close();
     }
+  }
+
+  /** True when the reader decodes the file's own bytes as UTF-8 (not stdin, gzip, or another encoding). */
+  readsFileBytes(): boolean {
+    return !this.options.textStream && this.path !== '-';
+  }
+
+  /** The physical line of the first data record (after the header and any comment lines above it). */
+  dataStartLine(): number {
+    return this.firstDataLine;
+  }
+
+  blanks(): BlankLines {
+    return { count: this.blankLines, firstLine: this.firstBlankLine };
+  }
+
+  delimiterUsed(): string {
+    return this.delimiter;
   }
 
   async close(): Promise<void> {

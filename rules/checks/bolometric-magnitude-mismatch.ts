@@ -3,7 +3,7 @@ import { COLUMN_VERDICT_MIN_ROWS, columnFinding, fmt, round6, rowFinding } from 
 import { usableValues } from '../engine/usable.js';
 import type { Finding, Rule, Severity } from '../engine/types.js';
 import { MBOL_SUN } from '../physics/constants.js';
-import { OffsetJudge, errAt, overflowNote } from '../physics/consistency.js';
+import { OffsetJudge, errAt, movedFinding, overflowNote, type OffsetJudgeState } from '../physics/consistency.js';
 
 const ID = 'bolometric-magnitude-mismatch';
 /** A column median closer to zero than this (mag) is not worth a note. */
@@ -27,6 +27,20 @@ interface MbolRow {
   expected: number;
   residual: number;
   sigma: number;
+}
+
+/** A row held until the column offset is known: its finding so far and the numbers of its verdict. */
+interface MbolHeld {
+  base: Finding;
+  row: MbolRow;
+}
+
+/** What a run over a row range hands on (see RuleRun.save). */
+interface MbolState {
+  judge: OffsetJudgeState<MbolHeld>;
+  input: number;
+  column: string;
+  flagged: number;
 }
 
 /** The older zero point a column offset (mag) matches, or null. */
@@ -90,7 +104,6 @@ export const bolometricMagnitudeMismatch: Rule = {
     const k = ctx.params.sigmas as number;
     const errorMag = ctx.params.errorMag as number;
     const maxOffset = ctx.params.maxOffsetMag as number;
-    const judgeRows = new OffsetJudge(1.25, 2.5e-4, MIN_OFFSET_MAG, maxOffset, COLUMN_VERDICT_MIN_ROWS);
     let input = 0;
     let column = '';
     let flagged = 0;
@@ -130,8 +143,10 @@ export const bolometricMagnitudeMismatch: Rule = {
       };
       return base;
     };
-    /** The deferred verdict on one row; made here so it holds only the row's numbers (see heldFinding). */
-    const later = (base: Finding, row: MbolRow) => (off: number) => judge(base, row, off);
+    const judgeRows = new OffsetJudge<MbolHeld>(1.25, 2.5e-4, MIN_OFFSET_MAG, maxOffset, COLUMN_VERDICT_MIN_ROWS, {
+      build: (h, off) => judge(h.base, h.row, off),
+      move: (h, shift) => ({ base: movedFinding(h.base, shift), row: h.row }),
+    });
 
     return {
       check(batch, out, stats) {
@@ -173,7 +188,7 @@ export const bolometricMagnitudeMismatch: Rule = {
             values: { [mb.column]: round6(mb.raw[i]), [lum.column]: round6(lum.raw[i]) },
             message: '',
           });
-          judgeRows.route(residual, k * sigma, out, later(base, row));
+          judgeRows.route(residual, k * sigma, out, { base, row });
         }
       },
       finish(out) {
@@ -206,6 +221,19 @@ export const bolometricMagnitudeMismatch: Rule = {
         }
         const overflow = overflowNote(input, ID, [column], judgeRows.held.dropped, `of ${column} were close to the threshold`);
         if (overflow) out.push(overflow);
+      },
+      save(): MbolState {
+        return { judge: judgeRows.save(), input, column, flagged };
+      },
+      absorb(state, shift) {
+        const s = state as MbolState;
+        judgeRows.absorb(s.judge, shift);
+        flagged += s.flagged;
+        // Empty until a range sees a batch; the binding is one per input, so any range's will do.
+        if (s.column) {
+          input = s.input;
+          column = s.column;
+        }
       },
       summary() {
         return {

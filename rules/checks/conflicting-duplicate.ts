@@ -2,7 +2,16 @@ import { columnFinding, fmt, round6, rowFindingAt } from '../engine/findings.js'
 import type { NumericQuantity } from '../engine/quantities.js';
 import { usableValues } from '../engine/usable.js';
 import type { ExpectedValue, Finding, Rule } from '../engine/types.js';
-import { Fingerprint, FirstByRow, KeyLog, growF32, idColumnOf, type KeyEvent } from './shared/fingerprints.js';
+import { Fingerprint, FirstByRow, KeyLog, growF32, idColumnOf, type KeyEvent, type KeyLogState } from './shared/fingerprints.js';
+
+/** What a run over one row range keeps for the end of the input. */
+interface ConflictingDuplicateState {
+  keys: KeyLogState;
+  /** Null when the range met no batch. */
+  input: number | null;
+  /** The id column and compared columns of the range's last batch with an id column; null when none had one. */
+  ids: { idColumn: string; bound: ({ column: string; unit: string } | null)[] } | null;
+}
 
 const ID = 'conflicting-duplicate';
 
@@ -75,7 +84,9 @@ export const conflictingDuplicate: Rule = {
     const extras = new Float64Array(2 * J);
     let conflicts = 0;
     let input = 0;
+    let seen = false;
     let idColumn = '';
+    let idSeen = false;
     /** The column and unit each compared quantity is read from in this input, null where unbound. */
     const bound: ({ column: string; unit: string } | null)[] = COMPARED.map(() => null);
     const byQuantity = new Map<string, number>();
@@ -128,9 +139,11 @@ export const conflictingDuplicate: Rule = {
     return {
       check(batch, _out, stats) {
         input = batch.input;
+        seen = true;
         const idCol = idColumnOf(batch, stats);
         if (!idCol) return;
         idColumn = idCol.column;
+        idSeen = true;
         const cols = COMPARED.map((q) => batch.quantities[q] ?? null);
         cols.forEach((c, j) => (bound[j] = c ? { column: c.column, unit: c.unit } : null));
         const vals = COMPARED.map((q) => usableValues(batch, q));
@@ -189,6 +202,22 @@ export const conflictingDuplicate: Rule = {
       },
       summary() {
         return { distinctIds: keys.distinct, conflicts, byQuantity: Object.fromEntries(byQuantity) };
+      },
+      save(): ConflictingDuplicateState {
+        return { keys: keys.save(), input: seen ? input : null, ids: idSeen ? { idColumn, bound: bound.map((b) => (b ? { ...b } : null)) } : null };
+      },
+      absorb(state, shift) {
+        const s = state as ConflictingDuplicateState;
+        keys.absorb(s.keys, shift);
+        if (s.input !== null) {
+          input = s.input;
+          seen = true;
+        }
+        if (s.ids) {
+          idColumn = s.ids.idColumn;
+          s.ids.bound.forEach((b, j) => (bound[j] = b));
+          idSeen = true;
+        }
       },
     };
   },

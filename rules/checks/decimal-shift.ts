@@ -43,13 +43,13 @@ export const decimalShift: Rule = {
       catches:
         'A mass, radius, luminosity or Teff whose decimal point slipped by one to three places (a factor 10, 100 or 1000 either way), with the shifted value as the suggestion.',
       why:
-        'A slipped decimal point leaves a plausible-looking number, so only the row can expose it: the relations that tie its values (L = 4 pi R^2 sigma Teff^4 within 0.15 dex, g = GM/R^2 within 0.1 dex plus the batch\'s logg scatter, and for main-sequence stars the mass-luminosity relation within its measured scatter, each with the row\'s errors) fail by more than fireSigma, and multiplying exactly one cell by 10^k (k = +-1, +-2, +-3) makes all of them hold within acceptSigma. When two different shifts would both mend the row, it cannot tell which cell slipped and stays silent (counted as ambiguous).',
+        'A slipped decimal point leaves a plausible-looking number, so only the row can expose it: the relations that tie its values (L = 4 pi R^2 sigma Teff^4 within 0.15 dex, g = GM/R^2 within 0.1 dex plus the logg scatter of the input\'s first 16384 rows, and for main-sequence stars the mass-luminosity relation within its measured scatter, each with the row\'s errors) fail by more than fireSigma, and multiplying exactly one cell by 10^k (k = +-1, +-2, +-3) makes all of them hold within acceptSigma. When two different shifts would both mend the row, it cannot tell which cell slipped and stays silent (counted as ambiguous).',
       fires:
         'mass_Msun = 6.35 for a star with R = 14.3 R_sun and logg 3.89 (and L, Teff that fit Stefan-Boltzmann): g = GM/R^2 is 0.96 dex off; at 63.5 M_sun the row fits (warning; suggests 63.5).',
       silent:
         'A row 0.4 dex off Stefan-Boltzmann (grid Teff, a rapid rotator): within the scatter or mended by no power of ten. A radius 9.73 times too large is left to radius-unit-mixup (Jupiter radii), a mass 1047.6 times too large to mass-unit-mixup (Jupiter masses), a Teff 1000 times too small to temperature-unit-mixup (kK).',
       cautions:
-        'The unit screens win wherever a unit factor lies within 0.05 dex of the power of ten (Jupiter masses vs 1000, Jupiter radii vs 10, Earth radii vs 100, kK vs K, g vs kg): they run first, and this rule also defers such shifts when they did not fire, so a radius ten times too large may be reported as Jupiter radii. A row with only Stefan-Boltzmann cannot tell a radius off by 10 from a luminosity off by 100 and stays silent. logg and log-valued columns are not shifted. The mass-luminosity relation is used only for stars known to be on the main sequence, so giants are judged by Stefan-Boltzmann and gravity alone. A star that is really peculiar (a pre-main-sequence star, an inflated companion) can be mended by a power of ten by coincidence; the finding is a warning.',
+        'The unit screens win wherever a unit factor lies within 0.05 dex of the power of ten (Jupiter masses vs 1000, Jupiter radii vs 10, Earth radii vs 100, kK vs K, g vs kg): they run first, and this rule also defers such shifts when they did not fire, so a radius ten times too large may be reported as Jupiter radii. Where a one-place shift fits clearly better than another unit, the unit screen still claims the cell if that unit is the column\'s habit (at least 10 rows and 2 % of those judged in the input\'s first 16384 rows), and this rule then stays silent on it. A row with only Stefan-Boltzmann cannot tell a radius off by 10 from a luminosity off by 100 and stays silent. logg and log-valued columns are not shifted. The mass-luminosity relation is used only for stars known to be on the main sequence, so giants are judged by Stefan-Boltzmann and gravity alone. A star that is really peculiar (a pre-main-sequence star, an inflated companion) can be mended by a power of ten by coincidence; the finding is a warning.',
     },
   },
   start(ctx) {
@@ -141,6 +141,16 @@ export const decimalShift: Rule = {
       },
       summary() {
         return { rowsShifted: fired, rowsAmbiguous: ambiguous, rowsLeftToUnitRules: deferred };
+      },
+      // Only counts cross batches; every finding is made in `check`.
+      save() {
+        return { fired, ambiguous, deferred };
+      },
+      absorb(state) {
+        const s = state as { fired: number; ambiguous: number; deferred: number };
+        fired += s.fired;
+        ambiguous += s.ambiguous;
+        deferred += s.deferred;
       },
     };
   },

@@ -1,6 +1,15 @@
 import { rowFindingAt } from '../engine/findings.js';
 import type { Rule } from '../engine/types.js';
-import { Fingerprint, KeyLog, RepeatLog, idColumnOf } from './shared/fingerprints.js';
+import { Fingerprint, KeyLog, RepeatLog, idColumnOf, type KeyLogState, type RepeatLogState } from './shared/fingerprints.js';
+
+/** What a run over one row range keeps for the end of the input. */
+interface DuplicateIdState {
+  keys: KeyLogState;
+  log: RepeatLogState;
+  /** Null when the range met no batch (no input number) or no id column. */
+  input: number | null;
+  column: string | null;
+}
 
 const ID = 'duplicate-id';
 
@@ -50,13 +59,17 @@ export const duplicateId: Rule = {
     const fp = new Fingerprint();
     const log = new RepeatLog(1000, ctx.params.listFraction as number);
     let input = 0;
+    let seen = false;
     let column = '';
+    let columnSeen = false;
     return {
       check(batch, _out, stats) {
         input = batch.input;
+        seen = true;
         const idCol = idColumnOf(batch, stats);
         if (!idCol) return;
         column = idCol.column;
+        columnSeen = true;
         const values = idCol.values;
         const lines = batch.lines;
         for (let i = 0; i < batch.length; i++) {
@@ -100,6 +113,22 @@ export const duplicateId: Rule = {
       },
       summary() {
         return { distinctIds: keys.distinct, rowsRepeatingAnId: log.repeats, idsOnSeveralRows: log.keysRepeated, listed: log.listed() };
+      },
+      save(): DuplicateIdState {
+        return { keys: keys.save(), log: log.save(), input: seen ? input : null, column: columnSeen ? column : null };
+      },
+      absorb(state, shift) {
+        const s = state as DuplicateIdState;
+        keys.absorb(s.keys, shift);
+        log.absorb(s.log);
+        if (s.input !== null) {
+          input = s.input;
+          seen = true;
+        }
+        if (s.column !== null) {
+          column = s.column;
+          columnSeen = true;
+        }
       },
     };
   },

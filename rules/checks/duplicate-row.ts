@@ -1,7 +1,15 @@
 import { rowFindingAt } from '../engine/findings.js';
 import { NUMERIC_QUANTITIES } from '../engine/quantities.js';
 import type { Rule } from '../engine/types.js';
-import { Fingerprint, KeyLog, RepeatLog } from './shared/fingerprints.js';
+import { Fingerprint, KeyLog, RepeatLog, type KeyLogState, type RepeatLogState } from './shared/fingerprints.js';
+
+/** What a run over one row range keeps for the end of the input. */
+interface DuplicateRowState {
+  keys: KeyLogState;
+  log: RepeatLogState;
+  /** What the range's last batch said; null when the range met no batch. */
+  last: { input: number; idColumn: string | null; columns: string[] } | null;
+}
 
 const ID = 'duplicate-row';
 
@@ -54,11 +62,13 @@ export const duplicateRow: Rule = {
     const log = new RepeatLog(1000, ctx.params.listFraction as number);
     const fp = new Fingerprint();
     let input = 0;
+    let seen = false;
     let idColumn: string | null = null;
     let columns: string[] = [];
     return {
       check(batch, _out, stats) {
         input = batch.input;
+        seen = true;
         const cols = NUMERIC_QUANTITIES.map((q) => batch.quantities[q]).filter((c) => c !== undefined);
         const id = batch.text.id?.values ?? null;
         const stage = batch.text.stage?.values ?? null;
@@ -120,6 +130,18 @@ export const duplicateRow: Rule = {
       },
       summary() {
         return { distinctRows: keys.distinct, repeatedRows: log.repeats, listed: log.listed() };
+      },
+      save(): DuplicateRowState {
+        return { keys: keys.save(), log: log.save(), last: seen ? { input, idColumn, columns } : null };
+      },
+      absorb(state, shift) {
+        const s = state as DuplicateRowState;
+        keys.absorb(s.keys, shift);
+        log.absorb(s.log);
+        if (s.last) {
+          ({ input, idColumn, columns } = s.last);
+          seen = true;
+        }
       },
     };
   },

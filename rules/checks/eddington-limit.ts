@@ -118,6 +118,10 @@ export const eddingtonLimit: Rule = {
           );
         }
       },
+      save: () => ({ hydrogenPoorLimitHits }),
+      absorb(state) {
+        hydrogenPoorLimitHits += (state as { hydrogenPoorLimitHits: number }).hydrogenPoorLimitHits;
+      },
       summary() {
         return {
           hydrogenFraction: defaultX,

@@ -1,4 +1,5 @@
-import type { Rule } from '../engine/types.js';
+import type { Rule, SampleFact } from '../engine/types.js';
+import { GRAVITY_SCATTER } from './shared/row-relations.js';
 import { eddingtonLimit } from './eddington-limit.js';
 import { luminosityUnitMixup } from './luminosity-unit-mixup.js';
 import { sentinelValue } from './sentinel-value.js';
@@ -45,3 +46,6 @@ export const ALL_RULES: readonly Rule[] = [
   duplicateRow,
   conflictingDuplicate,
 ];
+
+/** What the command line measures on each input's first rows for the rules (Batch.facts). */
+export const SAMPLE_FACTS: readonly SampleFact[] = [GRAVITY_SCATTER];

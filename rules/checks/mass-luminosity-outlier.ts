@@ -23,6 +23,7 @@ import {
   type RelationChoice,
   type RelationVerdictInput,
 } from '../physics/relation-choice.js';
+import { movedFinding } from '../physics/consistency.js';
 import { FixedHistogram, MAD_TO_SIGMA, autoThreshold, expectedExceedances, normalUpperTail, poissonUpperTail } from '../physics/statistics.js';
 
 const ID = 'mass-luminosity-outlier';
@@ -43,6 +44,37 @@ interface Candidate {
   logL: number;
   sigma: number;
   brightAllowance: number;
+}
+
+/** What a run over a row range hands on (see RuleRun.save); the catalog fit comes from ctx.prepass. */
+interface MlState {
+  judgedBy: Map<string, number>;
+  twoSided: number;
+  faintOnly: number;
+  exceed: number;
+  input: number;
+  column: string;
+  zHist: HistogramState;
+  beyond3: number;
+  candidates: Candidate[];
+  dropped: HistogramState;
+}
+
+interface HistogramState {
+  counts: Float64Array;
+  under: number;
+  over: number;
+  total: number;
+}
+
+const saveHistogram = (h: FixedHistogram): HistogramState => ({ counts: h.counts.slice(), under: h.under, over: h.over, total: h.total });
+
+/** Counts are whole numbers, so the sums are exact whatever the order. */
+function absorbHistogram(h: FixedHistogram, s: HistogramState): void {
+  for (let j = 0; j < s.counts.length; j++) h.counts[j] += s.counts[j];
+  h.under += s.under;
+  h.over += s.over;
+  h.total += s.total;
 }
 
 /**
@@ -320,6 +352,42 @@ export const massLuminosityOutlier: Rule = {
               }),
             );
           }
+        }
+      },
+      save(): MlState {
+        // Changes no verdict, only the state's size: a star not among this range's CANDIDATE_CAP
+        // farthest can never be among the whole input's (see prune).
+        if (candidates.length > CANDIDATE_CAP) prune();
+        return {
+          judgedBy: new Map(judgedBy),
+          twoSided,
+          faintOnly,
+          exceed,
+          input,
+          column,
+          zHist: saveHistogram(zHist),
+          beyond3,
+          candidates: candidates.slice(),
+          dropped: saveHistogram(dropped),
+        };
+      },
+      absorb(state, shift) {
+        const s = state as MlState;
+        for (const [name, n] of s.judgedBy) judgedBy.set(name, (judgedBy.get(name) ?? 0) + n);
+        twoSided += s.twoSided;
+        faintOnly += s.faintOnly;
+        exceed += s.exceed;
+        beyond3 += s.beyond3;
+        absorbHistogram(zHist, s.zHist);
+        absorbHistogram(dropped, s.dropped);
+        // Appended after this run's own: among equal |z| the earlier row stays ahead, as in one pass.
+        const moves = shift.rows !== 0 || shift.lines !== 0;
+        for (const c of s.candidates) candidates.push(moves ? { ...c, finding: movedFinding(c.finding, shift) } : c);
+        if (candidates.length >= 2 * CANDIDATE_CAP) prune();
+        // Empty until a range sees a batch; the binding is one per input, so any range's will do.
+        if (s.column) {
+          input = s.input;
+          column = s.column;
         }
       },
       summary() {

@@ -17,6 +17,8 @@ import {
   columnDexErr,
   dexErr,
   meanErr,
+  type ScreenLoop,
+  type ScreenState,
   type UnitMixupSpec,
 } from './shared/unit-readings.js';
 
@@ -74,13 +76,13 @@ export const massUnitMixup: Rule = {
       catches:
         'Masses written in kg, g, Jupiter masses or Earth masses under a solar-mass header, and log M pasted into a linear column. Names the likely unit and the corrected value; when most of a column is affected, one finding for the column.',
       why:
-        'kg and g are 30.30 and 33.30 dex above solar masses, Jupiter and Earth masses 3.02 and 5.52 dex (physics-reference.md §9); a planet-mass column mistaken for the host star is the classic case. Each reading of the cell is compared with the mass the row implies: g R^2 / G from logg and R (0.1 dex tolerance plus the errors and the batch\'s own logg scatter) and, for stars known to be on the main sequence, the mass-luminosity relation inverted at L (0.5 dex in L divided by the local slope). A reading is suggested when its Gaussian likelihood given these expectations is at least minLikelihoodRatio (1000) times that of the declared reading (the finding states how many times); where the declared value is one stars can have (0.01-350 M_sun) the suggestion must also fit every expectation within 3 sigma and the declared value miss by 0.9 dex (1.5 dex where one relation is the only evidence). A power of ten that fits clearly better is left to decimal-shift. The flagged cell is withheld from the judging rules.',
+        'kg and g are 30.30 and 33.30 dex above solar masses, Jupiter and Earth masses 3.02 and 5.52 dex (physics-reference.md §9); a planet-mass column mistaken for the host star is the classic case. Each reading of the cell is compared with the mass the row implies: g R^2 / G from logg and R (0.1 dex tolerance plus the errors and the logg scatter of the input\'s first 16384 rows) and, for stars known to be on the main sequence, the mass-luminosity relation inverted at L (0.5 dex in L divided by the local slope). A reading is suggested when its Gaussian likelihood given these expectations is at least minLikelihoodRatio (1000) times that of the declared reading (the finding states how many times); where the declared value is one stars can have (0.01-350 M_sun) the suggestion must also fit every expectation within 3 sigma and the declared value miss by 0.9 dex (1.5 dex where one relation is the only evidence). A power of ten that fits clearly better is left to decimal-shift, unless the input\'s first 16384 rows show that unit on at least 10 rows and 2 % of those judged (the column\'s habit: a column that mixes units says which). The flagged cell is withheld from the judging rules.',
       fires:
         'mass_Msun = 1047.6 for a star with logg 4.44 and R = 1.0 R_sun: as solar masses log M = 3.02, but g R^2 / G gives log M = 0.00; read as Jupiter masses it is 1.0 M_sun (error; suggests 1.0).',
       silent:
         'mass_Msun = 0.6 for a white dwarf with logg 8.0 and R = 0.0125 R_sun: g R^2 / G gives 0.6 M_sun, so the small dense star is judged as it is; no main-sequence relation is applied to it.',
       cautions:
-        'A Jupiter-mass reading is 1047.6 times the solar one, close to a slipped decimal point of 1000: this rule claims such cells first, and decimal-shift stays silent on them. With logg and R as the only evidence the rule cannot tell a wrong mass from a wrong radius or logg; where another unit for R or logg would also explain the row it stays silent (counted as ambiguous). Grid-fitted logg (steps of 0.25-0.5 dex) widens the gravity tolerance through the batch scatter, so such catalogs are judged more loosely. The mass-luminosity relation is used only where a stage, spectral type or logg says main sequence, so giants, white dwarfs, brown dwarfs and young stars are judged by gravity alone. An M dwarf written in Jupiter masses (84-350) looks like a possible solar mass and needs a 1.5 dex miss with one relation: it gets it (3.02 dex), but a mass a few times off does not, by design.',
+        'A Jupiter-mass reading is 1047.6 times the solar one, close to a slipped decimal point of 1000: this rule claims such cells first, and decimal-shift stays silent on them. With logg and R as the only evidence the rule cannot tell a wrong mass from a wrong radius or logg; where another unit for R or logg would also explain the row it stays silent (counted as ambiguous). Grid-fitted logg (steps of 0.25-0.5 dex) widens the gravity tolerance through the logg scatter of the first rows, so such catalogs are judged more loosely. The mass-luminosity relation is used only where a stage, spectral type or logg says main sequence, so giants, white dwarfs, brown dwarfs and young stars are judged by gravity alone. An M dwarf written in Jupiter masses (84-350) looks like a possible solar mass and needs a 1.5 dex miss with one relation: it gets it (3.02 dex), but a mass a few times off does not, by design.',
     },
   },
   start(ctx) {
@@ -91,69 +93,81 @@ export const massUnitMixup: Rule = {
     const rel: RelationVerdictInput = { relation: '', logL: NaN, slope: NaN, scatter: NaN, brightAllowance: 0 };
     const e = new Expectations();
     const rr = new RowRelations();
-    let ambiguous = 0;
+    // The rule's judging of one batch, with the screen it is given: a throwaway one over the
+    // input's sample at the start (UnitMixupScreen.learn), then this run's own over every batch.
+    const loop: ScreenLoop = (screen, batch, stats) => {
+      const mass = batch.quantities.mass!;
+      screen.begin(batch, mass.column);
+      const raw = mass.raw;
+      const radiusCol = batch.quantities.radius ?? null;
+      const loggCol = batch.quantities.logg ?? null;
+      const r = usableValues(batch, 'radius');
+      const g = usableValues(batch, 'logg');
+      const l = usableValues(batch, 'luminosity');
+      const classes = starClasses(batch);
+      const inputs = new RowInputs(batch, classes);
+      const scatter = inputs.scatter;
+      for (let i = 0; i < batch.length; i++) {
+        const v = raw[i];
+        if (!screen.admit(batch, i, v, stats)) continue;
+        const declaredLog = screen.declaredLog(v, Math.log10(mass.value[i]));
+        const own = dexErr(mass.errLo, mass.errHi, mass.value[i], i);
+        e.clear();
+        const ri = r ? r[i] : NaN;
+        const gi = g ? g[i] : NaN;
+        const lr = ri > 0 ? Math.log10(ri) : NaN;
+        if (Number.isFinite(lr) && Number.isFinite(gi)) {
+          const sr = columnDexErr(radiusCol!, i);
+          const sg = meanErr(loggCol!.errLo, loggCol!.errHi, i);
+          const sigma = Math.sqrt(GRAVITY_FLOOR_DEX ** 2 + scatter * scatter + sg * sg + 4 * sr * sr + own * own);
+          e.add(gi - LOGG_SUN + 2 * lr, sigma, BASIS_GRAVITY);
+        }
+        const li = l ? l[i] : NaN;
+        if (li > 0 && classes[i] === StarClass.MainSequence) {
+          const lm = invertMassLuminosity(Math.log10(li), rel);
+          if (Number.isFinite(lm)) e.add(lm, Math.sqrt((relTol / rel.slope) ** 2 + own * own), BASIS_ML);
+        }
+        const best = screen.judge(stats, v, declaredLog, e);
+        if (best < 0) continue;
+        // With g R^2 / G as the only evidence: would R or logg read in another unit explain the
+        // row as well? Not where Stefan-Boltzmann vouches for R as written.
+        const a = screen.acceptSigma;
+        if (e.n === 1 && e.basis[0] === BASIS_GRAVITY) inputs.load(rr, i);
+        if (
+          e.n === 1 &&
+          e.basis[0] === BASIS_GRAVITY &&
+          ((!rr.vouches(Cell.Radius, Relation.Gravity, a) && otherRadius.explains(declaredLog, e, a, 2, radiusCol!.raw[i], lr)) ||
+            otherLogg.explains(declaredLog, e, a, 1, loggCol!.raw[i], gi))
+        ) {
+          screen.ambiguous();
+          continue;
+        }
+        const basisText = (j: number) =>
+          j < 0
+            ? 'the range of masses stars have (no logg and R, or main-sequence L, in the row)'
+            : e.basis[j] === BASIS_GRAVITY
+              ? `g R^2 / G from logg = ${fmt(gi, 3)} and R = ${fmt(ri)} R_sun`
+              : `the main-sequence mass-luminosity relation at L = ${fmt(li)} L_sun`;
+        screen.report(batch, i, v, declaredLog, best, e, basisText);
+      }
+    };
+    screen.learn(ctx.sample, loop);
     return {
       check(batch, _out, stats) {
-        const mass = batch.quantities.mass!;
-        screen.begin(batch, mass.column);
-        const raw = mass.raw;
-        const radiusCol = batch.quantities.radius ?? null;
-        const loggCol = batch.quantities.logg ?? null;
-        const r = usableValues(batch, 'radius');
-        const g = usableValues(batch, 'logg');
-        const l = usableValues(batch, 'luminosity');
-        const classes = starClasses(batch);
-        const inputs = new RowInputs(batch, classes);
-        const scatter = inputs.scatter;
-        for (let i = 0; i < batch.length; i++) {
-          const v = raw[i];
-          if (!screen.admit(batch, i, v, stats)) continue;
-          const declaredLog = screen.declaredLog(v, Math.log10(mass.value[i]));
-          const own = dexErr(mass.errLo, mass.errHi, mass.value[i], i);
-          e.clear();
-          const ri = r ? r[i] : NaN;
-          const gi = g ? g[i] : NaN;
-          const lr = ri > 0 ? Math.log10(ri) : NaN;
-          if (Number.isFinite(lr) && Number.isFinite(gi)) {
-            const sr = columnDexErr(radiusCol!, i);
-            const sg = meanErr(loggCol!.errLo, loggCol!.errHi, i);
-            const sigma = Math.sqrt(GRAVITY_FLOOR_DEX ** 2 + scatter * scatter + sg * sg + 4 * sr * sr + own * own);
-            e.add(gi - LOGG_SUN + 2 * lr, sigma, BASIS_GRAVITY);
-          }
-          const li = l ? l[i] : NaN;
-          if (li > 0 && classes[i] === StarClass.MainSequence) {
-            const lm = invertMassLuminosity(Math.log10(li), rel);
-            if (Number.isFinite(lm)) e.add(lm, Math.sqrt((relTol / rel.slope) ** 2 + own * own), BASIS_ML);
-          }
-          const best = screen.judge(stats, v, declaredLog, e);
-          if (best < 0) continue;
-          // With g R^2 / G as the only evidence: would R or logg read in another unit explain the
-          // row as well? Not where Stefan-Boltzmann vouches for R as written.
-          const a = screen.acceptSigma;
-          if (e.n === 1 && e.basis[0] === BASIS_GRAVITY) inputs.load(rr, i);
-          if (
-            e.n === 1 &&
-            e.basis[0] === BASIS_GRAVITY &&
-            ((!rr.vouches(Cell.Radius, Relation.Gravity, a) && otherRadius.explains(declaredLog, e, a, 2, radiusCol!.raw[i], lr)) ||
-              otherLogg.explains(declaredLog, e, a, 1, loggCol!.raw[i], gi))
-          ) {
-            ambiguous++;
-            continue;
-          }
-          const basisText = (j: number) =>
-            j < 0
-              ? 'the range of masses stars have (no logg and R, or main-sequence L, in the row)'
-              : e.basis[j] === BASIS_GRAVITY
-                ? `g R^2 / G from logg = ${fmt(gi, 3)} and R = ${fmt(ri)} R_sun`
-                : `the main-sequence mass-luminosity relation at L = ${fmt(li)} L_sun`;
-          screen.report(batch, i, v, declaredLog, best, e, basisText);
-        }
+        screen.learn(batch, loop);
+        loop(screen, batch, stats);
       },
       finish(out) {
         screen.finish(out);
       },
       summary() {
-        return { ...screen.summary(), rowsAmbiguous: ambiguous };
+        return { ...screen.summary(), rowsAmbiguous: screen.ambiguousRows };
+      },
+      save() {
+        return screen.save();
+      },
+      absorb(state, shift) {
+        screen.absorb(state as ScreenState, shift);
       },
     };
   },

@@ -1,8 +1,8 @@
 import { expectedExceedances } from '../physics/statistics.js';
 import { COLUMN_VERDICT_MIN_ROWS, columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
 import { usableValues } from '../engine/usable.js';
-import type { Rule } from '../engine/types.js';
-import { DeferredFindings, dexAbove, dexBelow, errAt, heldFinding, overflowNote } from '../physics/consistency.js';
+import type { Finding, Rule } from '../engine/types.js';
+import { DEFERRED_CAP, DeferredFindings, FINISHED, dexAbove, dexBelow, errAt, overflowNote, type DeferredState } from '../physics/consistency.js';
 import { LINEAR_FACTORS } from '../physics/units.js';
 import { distanceFromParallax } from '../physics/stellar.js';
 
@@ -25,6 +25,17 @@ const FACTORS = [
   { ratio: 1 / LINEAR_FACTORS.distance.lyr, distance: 'the distance is in light years, not pc', distanceFix: LINEAR_FACTORS.distance.lyr, parallax: '', parallaxFix: 0 },
 ] as const;
 const FACTOR_LOGS = FACTORS.map((f) => Math.log10(f.ratio));
+
+/** What a run over a row range hands on (see RuleRun.save). */
+interface RangeTotals {
+  deferred: DeferredState<Finding>;
+  input: number;
+  distColumn: string;
+  plxColumn: string;
+  judged: number;
+  judgedWithoutError: number;
+  flagged: number;
+}
 
 export const parallaxDistanceMismatch: Rule = {
   meta: {
@@ -98,7 +109,7 @@ export const parallaxDistanceMismatch: Rule = {
     const k = ctx.params.sigmas as number;
     const errorDex = ctx.params.errorDex as number;
     const withoutError = ctx.params.judgeWithoutError as boolean;
-    const deferred = new DeferredFindings();
+    const deferred = new DeferredFindings<Finding>(DEFERRED_CAP, FINISHED);
     let input = 0;
     let distColumn = '';
     let plxColumn = '';
@@ -200,7 +211,7 @@ export const parallaxDistanceMismatch: Rule = {
                 ? { column: plx.column, value: round6(plxFixed) ?? plxFixed, unit: 'mas', text: `parallax = ${fmt(plxFixed)} mas (${fx.parallax})` }
                 : { column: dist.column, value: round6(distFixed) ?? distFixed, unit: 'pc', text: `distance = ${fmt(distFixed)} pc (${fx.distance})` },
             });
-            deferred.push(factor, heldFinding(f));
+            deferred.push(factor, f);
             continue;
           }
           out.push(
@@ -243,6 +254,22 @@ export const parallaxDistanceMismatch: Rule = {
         deferred.flush(out, 0, columnVerdict);
         const overflow = overflowNote(input, ID, [plxColumn, distColumn], deferred.dropped, `sit on a unit factor between ${distColumn} and 1000/${plxColumn}`);
         if (overflow) out.push(overflow);
+      },
+      save(): RangeTotals {
+        return { deferred: deferred.save(), input, distColumn, plxColumn, judged, judgedWithoutError, flagged };
+      },
+      absorb(state, shift) {
+        const s = state as RangeTotals;
+        deferred.absorb(s.deferred, shift);
+        judged += s.judged;
+        judgedWithoutError += s.judgedWithoutError;
+        flagged += s.flagged;
+        // Empty until a range sees a batch; the binding is one per input, so any range's will do.
+        if (s.distColumn) {
+          input = s.input;
+          distColumn = s.distColumn;
+          plxColumn = s.plxColumn;
+        }
       },
       summary() {
         return {

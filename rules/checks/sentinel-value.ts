@@ -3,7 +3,14 @@ import { NUMERIC_QUANTITIES, QUANTITY_INFO, type NumericQuantity } from '../engi
 import { markUnusable } from '../engine/usable.js';
 import type { Batch, QuantityColumn, Rule } from '../engine/types.js';
 import { STELLAR_LIMITS } from '../physics/classify.js';
-import { ColumnTally, describeLabels } from './shared/column-tally.js';
+import { ColumnTally, describeLabels, type ColumnTallyState } from './shared/column-tally.js';
+
+/** What a run over one row range keeps for the end of the input. */
+interface SentinelState {
+  input: number | null;
+  values: ColumnTallyState;
+  errors: ColumnTallyState;
+}
 
 const ID = 'sentinel-value';
 
@@ -106,9 +113,11 @@ export const sentinelValue: Rule = {
     const valueTally = new ColumnTally();
     const errorTally = new ColumnTally();
     let input = 0;
+    /** Whether a batch (or an absorbed range's) told the input number. */
+    let seen = false;
 
     /** Marks the code cells of one value column; returns nothing, counts into valueTally. */
-    function screenValues(batch: Batch, q: NumericQuantity, col: QuantityColumn): void {
+    function screenValues(batch: Batch, q: NumericQuantity, col: QuantityColumn, rank: number): void {
       const raw = col.raw;
       const value = col.value;
       let top = NaN;
@@ -126,12 +135,12 @@ export const sentinelValue: Rule = {
         }
         if (!isCode) continue;
         markUnusable(batch, q, i);
-        valueTally.add(col.column, codeLabel(r), batch.firstRow + i, batch.lines ? batch.lines[i] : null);
+        valueTally.add(col.column, codeLabel(r), batch.firstRow + i, batch.lines ? batch.lines[i] : null, null, rank);
       }
     }
 
     /** Error cells written as codes: set to missing (NaN) so no rule reads them as uncertainties. */
-    function screenErrors(batch: Batch, q: NumericQuantity, col: QuantityColumn): void {
+    function screenErrors(batch: Batch, q: NumericQuantity, col: QuantityColumn, rank: number): void {
       const w = col.errRaw;
       if (!w) return;
       const logLike = LOG_LIKE.has(q) || col.unit.startsWith('log');
@@ -158,7 +167,7 @@ export const sentinelValue: Rule = {
             if (col.errHi) col.errHi[i] = NaN;
             if (col.logErrHi) col.logErrHi[i] = NaN;
           }
-          errorTally.add(column, codeLabel(e), batch.firstRow + i, batch.lines ? batch.lines[i] : null);
+          errorTally.add(column, codeLabel(e), batch.firstRow + i, batch.lines ? batch.lines[i] : null, null, side === 'lo' ? rank : rank + 1);
         }
       }
     }
@@ -166,13 +175,15 @@ export const sentinelValue: Rule = {
     return {
       check(batch, _out, stats) {
         input = batch.input;
+        seen = true;
         stats.checked += batch.length;
-        for (const q of NUMERIC_QUANTITIES) {
+        // Each column's loop position is its rank in the tallies, so the notes do not depend on the batches.
+        NUMERIC_QUANTITIES.forEach((q, k) => {
           const col = batch.quantities[q];
-          if (!col) continue;
-          screenValues(batch, q, col);
-          screenErrors(batch, q, col);
-        }
+          if (!col) return;
+          screenValues(batch, q, col, k);
+          screenErrors(batch, q, col, 2 * k);
+        });
         // Runs of dots: the binder has already read them as missing.
         for (const p of batch.problems) {
           if (p.kind !== 'sentinel' || p.column === null || p.index < 0) continue;
@@ -192,6 +203,18 @@ export const sentinelValue: Rule = {
       },
       summary() {
         return { codes: [...codes], valueCells: valueTally.total(), uncertaintyCells: errorTally.total() };
+      },
+      save(): SentinelState {
+        return { input: seen ? input : null, values: valueTally.save(), errors: errorTally.save() };
+      },
+      absorb(state, shift) {
+        const s = state as SentinelState;
+        if (s.input !== null) {
+          input = s.input;
+          seen = true;
+        }
+        valueTally.absorb(s.values, shift);
+        errorTally.absorb(s.errors, shift);
       },
     };
   },

@@ -3,7 +3,7 @@ import { COLUMN_VERDICT_MIN_ROWS, columnFinding, fmt, round6, rowFinding } from 
 import { usableValues } from '../engine/usable.js';
 import type { Finding, Rule, Severity } from '../engine/types.js';
 import { L_SUN_W, TEFF_SUN_K } from '../physics/constants.js';
-import { OffsetJudge, dexAbove, dexBelow, errAt, overflowNote } from '../physics/consistency.js';
+import { OffsetJudge, dexAbove, dexBelow, errAt, movedFinding, overflowNote, type OffsetJudgeState } from '../physics/consistency.js';
 import { logLuminosityFromRadiusTeff } from '../physics/stellar.js';
 
 const ID = 'stefan-boltzmann-mismatch';
@@ -19,6 +19,23 @@ interface SbRow {
   sigma: number;
   radius: number;
   teff: number;
+}
+
+/** A row held until the column offset is known: its finding so far and the numbers of its verdict. */
+interface SbHeld {
+  base: Finding;
+  row: SbRow;
+  radiusColumn: string;
+  teffColumn: string;
+}
+
+/** What a run over a row range hands on (see RuleRun.save). */
+interface SbState {
+  judge: OffsetJudgeState<SbHeld>;
+  input: number;
+  lumColumn: string;
+  lumUnit: string;
+  flagged: number;
 }
 
 export const stefanBoltzmannMismatch: Rule = {
@@ -78,7 +95,6 @@ export const stefanBoltzmannMismatch: Rule = {
     const k = ctx.params.sigmas as number;
     const errorDex = ctx.params.errorDex as number;
     const maxOffset = ctx.params.maxOffsetDex as number;
-    const judgeRows = new OffsetJudge(0.5, 1e-4, MIN_OFFSET_DEX, maxOffset, COLUMN_VERDICT_MIN_ROWS);
     let input = 0;
     let lumColumn = '';
     let lumUnit = 'solLum';
@@ -127,8 +143,10 @@ export const stefanBoltzmannMismatch: Rule = {
       };
       return base;
     };
-    /** The deferred verdict on one row; made here so it holds only the row's numbers (see heldFinding). */
-    const later = (base: Finding, row: SbRow, rc: string, tc: string) => (off: number) => judge(base, row, off, rc, tc);
+    const judgeRows = new OffsetJudge<SbHeld>(0.5, 1e-4, MIN_OFFSET_DEX, maxOffset, COLUMN_VERDICT_MIN_ROWS, {
+      build: (h, off) => judge(h.base, h.row, off, h.radiusColumn, h.teffColumn),
+      move: (h, shift) => ({ ...h, base: movedFinding(h.base, shift) }),
+    });
 
     return {
       check(batch, out, stats) {
@@ -174,9 +192,7 @@ export const stefanBoltzmannMismatch: Rule = {
             values: { [lum.column]: round6(lum.raw[i]), [rad.column]: round6(rad.raw[i]), [te.column]: round6(te.raw[i]) },
             message: '',
           });
-          const rc = rad.column;
-          const tc = te.column;
-          judgeRows.route(residual, k * sigma, out, later(base, row, rc, tc));
+          judgeRows.route(residual, k * sigma, out, { base, row, radiusColumn: rad.column, teffColumn: te.column });
         }
       },
       finish(out) {
@@ -208,6 +224,20 @@ export const stefanBoltzmannMismatch: Rule = {
         }
         const overflow = overflowNote(input, ID, [lumColumn], judgeRows.held.dropped, `of ${lumColumn} were close to the threshold`);
         if (overflow) out.push(overflow);
+      },
+      save(): SbState {
+        return { judge: judgeRows.save(), input, lumColumn, lumUnit, flagged };
+      },
+      absorb(state, shift) {
+        const s = state as SbState;
+        judgeRows.absorb(s.judge, shift);
+        flagged += s.flagged;
+        // Empty until a range sees a batch; the binding is one per input, so any range's will do.
+        if (s.lumColumn) {
+          input = s.input;
+          lumColumn = s.lumColumn;
+          lumUnit = s.lumUnit;
+        }
       },
       summary() {
         return {

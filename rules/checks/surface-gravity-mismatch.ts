@@ -1,8 +1,8 @@
 import { expectedExceedances } from '../physics/statistics.js';
 import { COLUMN_VERDICT_MIN_ROWS, columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
 import { usableValues } from '../engine/usable.js';
-import type { Rule } from '../engine/types.js';
-import { DeferredFindings, dexAbove, dexBelow, errAt, heldFinding, overflowNote } from '../physics/consistency.js';
+import type { Finding, Rule } from '../engine/types.js';
+import { DEFERRED_CAP, DeferredFindings, FINISHED, dexAbove, dexBelow, errAt, overflowNote, type DeferredState } from '../physics/consistency.js';
 import { loggFromMassRadius } from '../physics/stellar.js';
 
 const ID = 'surface-gravity-mismatch';
@@ -27,6 +27,20 @@ const TAG_HIGH = 1;
 function onGrid(v: number, step: number): boolean {
   const q = v / step;
   return Math.abs(q - Math.round(q)) < 1e-6;
+}
+
+/** What a run over a row range hands on (see RuleRun.save). */
+interface RangeTotals {
+  deferred: DeferredState<Finding>;
+  input: number;
+  column: string;
+  judged: number;
+  flagged: number;
+  loggSeen: number;
+  onQuarterGrid: number;
+  onHalfGrid: number;
+  statedErrSum: number;
+  statedErrN: number;
 }
 
 export const surfaceGravityMismatch: Rule = {
@@ -76,7 +90,7 @@ export const surfaceGravityMismatch: Rule = {
     const k = ctx.params.sigmas as number;
     const tol = ctx.params.toleranceDex as number;
     const defaultErr = ctx.params.defaultErrorDex as number;
-    const deferred = new DeferredFindings();
+    const deferred = new DeferredFindings<Finding>(DEFERRED_CAP, FINISHED);
     let input = 0;
     let column = '';
     let judged = 0;
@@ -165,7 +179,7 @@ export const surfaceGravityMismatch: Rule = {
                 text: low ? `${fmt(gi + SI_DEX, 3)} (the value read as log g in m s^-2, converted to cgs)` : `${fmt(gi - SI_DEX, 3)} (the value read as cgs)`,
               },
             });
-            deferred.push(low ? TAG_LOW : TAG_HIGH, heldFinding(f));
+            deferred.push(low ? TAG_LOW : TAG_HIGH, f);
             continue;
           }
           // What would make the row consistent if only one of its columns were wrong.
@@ -236,6 +250,25 @@ export const surfaceGravityMismatch: Rule = {
         }
         const overflow = overflowNote(input, ID, [column], deferred.dropped, `of ${column} sit 2 dex off G M / R^2`);
         if (overflow) out.push(overflow);
+      },
+      save(): RangeTotals {
+        return { deferred: deferred.save(), input, column, judged, flagged, loggSeen, onQuarterGrid, onHalfGrid, statedErrSum, statedErrN };
+      },
+      absorb(state, shift) {
+        const s = state as RangeTotals;
+        deferred.absorb(s.deferred, shift);
+        judged += s.judged;
+        flagged += s.flagged;
+        loggSeen += s.loggSeen;
+        onQuarterGrid += s.onQuarterGrid;
+        onHalfGrid += s.onHalfGrid;
+        statedErrSum += s.statedErrSum;
+        statedErrN += s.statedErrN;
+        // Empty until a range sees a batch; the binding is one per input, so any range's will do.
+        if (s.column) {
+          input = s.input;
+          column = s.column;
+        }
       },
       summary() {
         return {

@@ -47,13 +47,13 @@ export const swappedColumns: Rule = {
       catches:
         'Rows where two fields were typed into each other\'s columns: mass and radius, Teff and logg, or a value and its uncertainty. Suggests the swap and withholds both cells from the judging rules.',
       why:
-        'A swap leaves every value plausible on its own and breaks the row as a whole, so it shows only through the relations that tie the values: a subgiant of 1.2 M_sun and 2.0 R_sun written as M = 2.0, R = 1.2 misses g = GM/R^2 by 0.67 dex and Stefan-Boltzmann by 0.44 dex, and swapping M and R makes both exact. An M/R swap is only judged where the relations test both cells (gravity, or Stefan-Boltzmann together with the main-sequence mass-luminosity relation). The row as written must miss its relations (0.15 dex for Stefan-Boltzmann, 0.1 dex plus the batch\'s logg scatter for gravity, the measured scatter for the mass-luminosity relation, each with the row\'s errors) by more than fireSigma, and the swapped row fit all within acceptSigma. Teff and logg are recognised also without relations: a Teff below 100 K beside a logg above 100 cannot be anything else. A value smaller than its own error is swapped when the swapped value makes the row consistent.',
+        'A swap leaves every value plausible on its own and breaks the row as a whole, so it shows only through the relations that tie the values: a subgiant of 1.2 M_sun and 2.0 R_sun written as M = 2.0, R = 1.2 misses g = GM/R^2 by 0.67 dex and Stefan-Boltzmann by 0.44 dex, and swapping M and R makes both exact. An M/R swap is only judged where the relations test both cells (gravity, or Stefan-Boltzmann together with the main-sequence mass-luminosity relation). The row as written must miss its relations (0.15 dex for Stefan-Boltzmann, 0.1 dex plus the logg scatter of the input\'s first 16384 rows for gravity, the measured scatter for the mass-luminosity relation, each with the row\'s errors) by more than fireSigma, and the swapped row fit all within acceptSigma. Teff and logg are recognised also without relations: a Teff below 100 K beside a logg above 100 cannot be anything else. A value smaller than its own error is swapped when the swapped value makes the row consistent.',
       fires:
         'mass_Msun = 2.0, radius_Rsun = 1.2 with logg 3.915, L = 4.08 L_sun and Teff 5800 K: as written g = GM/R^2 gives 4.58 (0.67 dex, 6.7 sigma off); swapped (M = 1.2, R = 2.0) gravity and Stefan-Boltzmann both fit exactly (error; suggests mass_Msun = 1.2). teff_K = 4.438 beside logg = 5772 is swapped too.',
       silent:
         'mass_Msun = 1.0, radius_Rsun = 1.0 for the Sun: swapping changes nothing and the row is consistent. A 1.2 M_sun giant with R = 10 R_sun and logg 2.5 fits as written.',
       cautions:
-        'A swap is only as good as the relations that judge it: a row with logg as its only link between M and R can be fitted by a swap by coincidence where its logg is poor (grid-fitted logg adds the batch scatter to the tolerance, which guards against this). Stars with M close to R (the Sun, M dwarfs) cannot show a swap and are never flagged. Errors exchanged with their values are judged only for linear columns with symmetric errors.',
+        'A swap is only as good as the relations that judge it: a row with logg as its only link between M and R can be fitted by a swap by coincidence where its logg is poor (grid-fitted logg adds the column\'s scatter over the first 16384 rows to the tolerance, which guards against this). Stars with M close to R (the Sun, M dwarfs) cannot show a swap and are never flagged. Errors exchanged with their values are judged only for linear columns with symmetric errors.',
     },
   },
   start(ctx) {
@@ -210,6 +210,16 @@ export const swappedColumns: Rule = {
       },
       summary() {
         return { rowsMassRadius: counts.massRadius, rowsTeffLogg: counts.teffLogg, rowsValueError: counts.valueError };
+      },
+      // Only counts cross batches; every finding is made in `check`.
+      save() {
+        return { ...counts };
+      },
+      absorb(state) {
+        const s = state as typeof counts;
+        counts.massRadius += s.massRadius;
+        counts.teffLogg += s.teffLogg;
+        counts.valueError += s.valueError;
       },
     };
   },

@@ -15,6 +15,8 @@ import {
   UnitMixupScreen,
   columnDexErr,
   dexErr,
+  type ScreenLoop,
+  type ScreenState,
   type UnitMixupSpec,
 } from './shared/unit-readings.js';
 
@@ -66,7 +68,7 @@ export const temperatureUnitMixup: Rule = {
       silent:
         'teff_K = 575 for a T dwarf (WISEP J1217+1626 A, PHL PROVENANCE) or 71 530 K for the hottest MWDD entry: temperatures stars have, so with nothing contradicting them they stand. 11 544 K for the Sun (0.3 dex off Stefan-Boltzmann) is no unit slip either.',
       cautions:
-        'Without L and R a value of 3.3-4.8 is taken for log Teff, not kK (a 3.3-4.8 kK star is just as possible; physics-reference.md §9 calls log Teff the near-certain reading); 4.8-200 is read as kK. Grid Teff (100 K steps) and rapid rotators miss Stefan-Boltzmann by up to 0.1-0.2 dex in Teff, far inside the 3 dex of a unit slip. Where L or R read in another unit would also explain the row, the rule stays silent (counted as ambiguous).',
+        'Without L and R a value of 3.3-4.8 is taken for log Teff, not kK (a 3.3-4.8 kK star is just as possible; physics-reference.md §9 calls log Teff the near-certain reading), unless the column\'s typical value (the median and spread of its declared values over the input\'s first 16384 rows) lies nearer the kK reading; 4.8-200 is read as kK. A Teff that one slipped decimal place explains clearly better than another unit is left to decimal-shift, unless the input\'s first 16384 rows show that unit on at least 10 rows and 2 % of those judged (the column\'s habit: a column that mixes units says which). Grid Teff (100 K steps) and rapid rotators miss Stefan-Boltzmann by up to 0.1-0.2 dex in Teff, far inside the 3 dex of a unit slip. Where L or R read in another unit would also explain the row, the rule stays silent (counted as ambiguous).',
     },
   },
   start(ctx) {
@@ -75,55 +77,67 @@ export const temperatureUnitMixup: Rule = {
     const otherRadius = new OtherCell(RADIUS_READINGS, ctx.bound.get('radius')?.unit);
     const e = new Expectations();
     const rr = new RowRelations();
-    let ambiguous = 0;
+    // The rule's judging of one batch, with the screen it is given: a throwaway one over the
+    // input's sample at the start (UnitMixupScreen.learn), then this run's own over every batch.
+    const loop: ScreenLoop = (screen, batch, stats) => {
+      const teff = batch.quantities.teff!;
+      screen.begin(batch, teff.column);
+      const raw = teff.raw;
+      const q = batch.quantities;
+      const l = usableValues(batch, 'luminosity');
+      const r = usableValues(batch, 'radius');
+      const inputs = new RowInputs(batch, starClasses(batch));
+      for (let i = 0; i < batch.length; i++) {
+        const v = raw[i];
+        if (!screen.admit(batch, i, v, stats)) continue;
+        const declaredLog = screen.declaredLog(v, Math.log10(teff.value[i]));
+        e.clear();
+        const li = l ? l[i] : NaN;
+        const ri = r ? r[i] : NaN;
+        const ll = li > 0 ? Math.log10(li) : NaN;
+        const lr = ri > 0 ? Math.log10(ri) : NaN;
+        if (Number.isFinite(ll) && Number.isFinite(lr)) {
+          const sl = columnDexErr(q.luminosity!, i);
+          const sr = columnDexErr(q.radius!, i);
+          const own = dexErr(teff.errLo, teff.errHi, teff.value[i], i);
+          const sigma = Math.sqrt((SB_FLOOR_DEX / 4) ** 2 + (sl / 4) ** 2 + (sr / 2) ** 2 + own * own);
+          e.add(LOG_TEFF_SUN + 0.25 * ll - 0.5 * lr, sigma, BASIS_SB);
+        }
+        const best = screen.judge(stats, v, declaredLog, e);
+        if (best < 0) continue;
+        const a = screen.acceptSigma;
+        // Would L or R read in another unit explain the row as well? Not where another relation
+        // vouches for that cell as written.
+        inputs.load(rr, i);
+        if (
+          (!rr.vouches(Cell.Luminosity, Relation.StefanBoltzmann, a) && otherLum.explains(declaredLog, e, a, 0.25, q.luminosity?.raw[i] ?? NaN, ll)) ||
+          (!rr.vouches(Cell.Radius, Relation.StefanBoltzmann, a) && otherRadius.explains(declaredLog, e, a, -0.5, q.radius?.raw[i] ?? NaN, lr))
+        ) {
+          screen.ambiguous();
+          continue;
+        }
+        const basisText = (j: number) =>
+          j < 0 ? 'the range of temperatures stars have (no L and R in the row)' : `Stefan-Boltzmann from L = ${fmt(li)} L_sun and R = ${fmt(ri)} R_sun`;
+        screen.report(batch, i, v, declaredLog, best, e, basisText);
+      }
+    };
+    screen.learn(ctx.sample, loop);
     return {
       check(batch, _out, stats) {
-        const teff = batch.quantities.teff!;
-        screen.begin(batch, teff.column);
-        const raw = teff.raw;
-        const q = batch.quantities;
-        const l = usableValues(batch, 'luminosity');
-        const r = usableValues(batch, 'radius');
-        const inputs = new RowInputs(batch, starClasses(batch));
-        for (let i = 0; i < batch.length; i++) {
-          const v = raw[i];
-          if (!screen.admit(batch, i, v, stats)) continue;
-          const declaredLog = screen.declaredLog(v, Math.log10(teff.value[i]));
-          e.clear();
-          const li = l ? l[i] : NaN;
-          const ri = r ? r[i] : NaN;
-          const ll = li > 0 ? Math.log10(li) : NaN;
-          const lr = ri > 0 ? Math.log10(ri) : NaN;
-          if (Number.isFinite(ll) && Number.isFinite(lr)) {
-            const sl = columnDexErr(q.luminosity!, i);
-            const sr = columnDexErr(q.radius!, i);
-            const own = dexErr(teff.errLo, teff.errHi, teff.value[i], i);
-            const sigma = Math.sqrt((SB_FLOOR_DEX / 4) ** 2 + (sl / 4) ** 2 + (sr / 2) ** 2 + own * own);
-            e.add(LOG_TEFF_SUN + 0.25 * ll - 0.5 * lr, sigma, BASIS_SB);
-          }
-          const best = screen.judge(stats, v, declaredLog, e);
-          if (best < 0) continue;
-          const a = screen.acceptSigma;
-          // Would L or R read in another unit explain the row as well? Not where another relation
-          // vouches for that cell as written.
-          inputs.load(rr, i);
-          if (
-            (!rr.vouches(Cell.Luminosity, Relation.StefanBoltzmann, a) && otherLum.explains(declaredLog, e, a, 0.25, q.luminosity?.raw[i] ?? NaN, ll)) ||
-            (!rr.vouches(Cell.Radius, Relation.StefanBoltzmann, a) && otherRadius.explains(declaredLog, e, a, -0.5, q.radius?.raw[i] ?? NaN, lr))
-          ) {
-            ambiguous++;
-            continue;
-          }
-          const basisText = (j: number) =>
-            j < 0 ? 'the range of temperatures stars have (no L and R in the row)' : `Stefan-Boltzmann from L = ${fmt(li)} L_sun and R = ${fmt(ri)} R_sun`;
-          screen.report(batch, i, v, declaredLog, best, e, basisText);
-        }
+        screen.learn(batch, loop);
+        loop(screen, batch, stats);
       },
       finish(out) {
         screen.finish(out);
       },
       summary() {
-        return { ...screen.summary(), rowsAmbiguous: ambiguous };
+        return { ...screen.summary(), rowsAmbiguous: screen.ambiguousRows };
+      },
+      save() {
+        return screen.save();
+      },
+      absorb(state, shift) {
+        screen.absorb(state as ScreenState, shift);
       },
     };
   },

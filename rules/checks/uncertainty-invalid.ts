@@ -2,7 +2,37 @@ import { columnFinding, fmt, round6, rowFinding } from '../engine/findings.js';
 import { NUMERIC_QUANTITIES, QUANTITY_INFO } from '../engine/quantities.js';
 import { usableValues } from '../engine/usable.js';
 import type { Batch, Finding, FindingSink, QuantityColumn, Rule, Severity, Suggestion } from '../engine/types.js';
-import { ColumnTally } from './shared/column-tally.js';
+import { ColumnTally, type ColumnTallyState } from './shared/column-tally.js';
+
+/** Rows with each problem in one column, and where the column comes among the others. */
+interface ProblemCounts {
+  column: string;
+  /** Per Problem. */
+  rows: number[];
+  rank: number;
+  firstRow: number;
+  /** Order among columns met first on the same row. */
+  seq: number;
+}
+
+/** What a run over one row range keeps for the end of the input. */
+interface UncertaintyState {
+  input: number | null;
+  zeros: ColumnTallyState;
+  /** In order; `seq` is dropped, the order of the list says it. */
+  counts: Omit<ProblemCounts, 'seq'>[];
+  /** Rows listed while checking, per column and problem (at most the cap each), for the merge's filter. */
+  listed: [string, number[]][];
+}
+
+/**
+ * How a finding of a problem names its columns, so a filter can tell a finding's problem from the
+ * finding: one column (the sign problems, which exclude each other on a column), the pair with the
+ * lower column first (swapped), or the value then its error column (larger than the value).
+ */
+function shapeOf(p: number): 'single' | 'swapped' | 'larger' {
+  return p === Problem.Swapped ? 'swapped' : p === Problem.LargerThanValue ? 'larger' : 'single';
+}
 
 const ID = 'uncertainty-invalid';
 
@@ -69,20 +99,39 @@ export const uncertaintyInvalid: Rule = {
     const cap = ctx.params.maxRowsPerColumn as number;
     const zeros = new ColumnTally();
     /** Rows per (column, problem), for the cap and the column summary. */
-    const counts = new Map<string, number[]>();
+    const counts = new Map<string, ProblemCounts>();
     let input = 0;
+    /**
+     * Position of the column being judged in the loop over a batch's columns: columns are reported
+     * in loop order, then by first row, the order of one pass over one batch, whatever the batches.
+     */
+    let rank = 0;
+    let seq = 0;
+    let seen = false;
 
-    function count(column: string, p: Problem): number {
+    function count(column: string, p: Problem, row: number): number {
       let c = counts.get(column);
       if (!c) {
-        c = [0, 0, 0, 0, 0];
+        c = { column, rows: [0, 0, 0, 0, 0], rank, firstRow: row, seq: seq++ };
         counts.set(column, c);
       }
-      return ++c[p];
+      return ++c.rows[p];
     }
 
+    /** The columns with problems in order (see `rank`). */
+    function countsInOrder(): ProblemCounts[] {
+      return [...counts.values()].sort((a, b) => a.rank - b.rank || a.firstRow - b.firstRow || a.seq - b.seq);
+    }
+
+    /** Rows listed per `column\0problem`, up to the cap: what a later range's filter needs. */
+    const listed = new Map<string, number[]>();
+
     function report(batch: Batch, i: number, out: FindingSink, column: string, p: Problem, parts: { columns: string[]; values: Finding['values']; message: string; expected?: Finding['expected']; suggestion?: Suggestion | null }): void {
-      if (count(column, p) > cap) return;
+      if (count(column, p, batch.firstRow + i) > cap) return;
+      const key = `${column}\0${p}`;
+      const rows = listed.get(key);
+      if (rows) rows.push(batch.firstRow + i);
+      else listed.set(key, [batch.firstRow + i]);
       out.push(rowFinding(batch, i, { rule: ID, severity: PROBLEM_SEVERITY[p], ...parts }));
     }
 
@@ -105,7 +154,7 @@ export const uncertaintyInvalid: Rule = {
         const line = batch.lines ? batch.lines[i] : null;
         const row = batch.firstRow + i;
         if (w.symmetric) {
-          if (a === 0) zeros.add(w.loColumn!, 'zero', row, line);
+          if (a === 0) zeros.add(w.loColumn!, 'zero', row, line, null, rank);
           else if (a < 0) {
             report(batch, i, out, w.loColumn!, Problem.NegativeSymmetric, {
               columns: [w.loColumn!],
@@ -116,8 +165,8 @@ export const uncertaintyInvalid: Rule = {
             });
           }
         } else {
-          if (a === 0) zeros.add(w.loColumn!, 'zero', row, line);
-          if (b === 0) zeros.add(w.hiColumn!, 'zero', row, line);
+          if (a === 0) zeros.add(w.loColumn!, 'zero', row, line, null, rank);
+          if (b === 0) zeros.add(w.hiColumn!, 'zero', row, line, null, rank);
           const loWrong = w.loStoredNegative ? a > 0 : a < 0;
           const hiWrong = b < 0;
           const loCol = w.loColumn ?? '';
@@ -172,13 +221,16 @@ export const uncertaintyInvalid: Rule = {
     return {
       check(batch, out, stats) {
         input = batch.input;
+        seen = true;
         if (rowsWithErrors.length < batch.length) rowsWithErrors = new Uint8Array(batch.length);
         else rowsWithErrors.fill(0, 0, batch.length);
         let columns = 0;
-        for (const q of NUMERIC_QUANTITIES) {
+        for (let k = 0; k < NUMERIC_QUANTITIES.length; k++) {
+          const q = NUMERIC_QUANTITIES[k];
           const col = batch.quantities[q];
           if (!col?.errRaw) continue;
           columns++;
+          rank = k;
           // Linear values only: for a log column the converted errors come from dex and never say
           // anything about the value reaching zero.
           const mustBePositive = QUANTITY_INFO[q].positive && !col.unit.startsWith('log');
@@ -194,7 +246,7 @@ export const uncertaintyInvalid: Rule = {
         if (batch.length > with_) stats.skip('no uncertainty given', batch.length - with_);
       },
       finish(out) {
-        for (const [column, c] of counts) {
+        for (const { column, rows: c } of countsInOrder()) {
           for (let p = 0; p < c.length; p++) {
             if (c[p] <= cap) continue;
             out.push(
@@ -216,8 +268,50 @@ export const uncertaintyInvalid: Rule = {
       },
       summary() {
         const byProblem: Record<string, number> = {};
-        for (const c of counts.values()) for (let p = 0; p < c.length; p++) if (c[p] > 0) byProblem[PROBLEM_TEXT[p]] = (byProblem[PROBLEM_TEXT[p]] ?? 0) + c[p];
+        for (const { rows: c } of countsInOrder()) for (let p = 0; p < c.length; p++) if (c[p] > 0) byProblem[PROBLEM_TEXT[p]] = (byProblem[PROBLEM_TEXT[p]] ?? 0) + c[p];
         return { byProblem, zeroUncertainties: zeros.total() };
+      },
+      save(): UncertaintyState {
+        return {
+          input: seen ? input : null,
+          zeros: zeros.save(),
+          counts: countsInOrder().map(({ column, rows, rank: r, firstRow }) => ({ column, rows, rank: r, firstRow })),
+          listed: [...listed],
+        };
+      },
+      absorb(state, shift) {
+        const s = state as UncertaintyState;
+        if (s.input !== null) {
+          input = s.input;
+          seen = true;
+        }
+        zeros.absorb(s.zeros, shift);
+        // The counts merge exactly, and so the column findings of the cap. The range listed up to
+        // the cap of its own rows while checking; those past what the ranges before it left of
+        // the cap are the rows one pass would not have listed, and the filter drops them.
+        for (const c of s.counts) {
+          const mine = counts.get(c.column);
+          if (!mine) counts.set(c.column, { column: c.column, rows: [...c.rows], rank: c.rank, firstRow: c.firstRow + shift.rows, seq: seq++ });
+          else for (let p = 0; p < c.rows.length; p++) mine.rows[p] += c.rows[p];
+        }
+        const drop = new Set<string>();
+        for (const [key, rows] of s.listed) {
+          const mine = listed.get(key) ?? [];
+          listed.set(key, mine);
+          const [column, p] = key.split('\0');
+          for (const r of rows) {
+            if (mine.length < cap) mine.push(r + shift.rows);
+            else drop.add(`${r + shift.rows}\0${column}\0${shapeOf(Number(p))}`);
+          }
+        }
+        if (drop.size === 0) return;
+        return (f: Finding) => {
+          if (f.row === null) return true;
+          const one = f.columns.length === 1 ? `${f.row}\0${f.columns[0]}\0single` : null;
+          const candidates = one ? [one] : [`${f.row}\0${f.columns[0]}\0swapped`, `${f.row}\0${f.columns[1]}\0larger`];
+          for (const c of candidates) if (drop.delete(c)) return false;
+          return true;
+        };
       },
     };
   },

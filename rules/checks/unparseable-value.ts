@@ -1,6 +1,12 @@
 import { problemFindings } from '../engine/findings.js';
 import type { Rule } from '../engine/types.js';
-import { ColumnTally } from './shared/column-tally.js';
+import { ColumnTally, type ColumnTallyState } from './shared/column-tally.js';
+
+/** What a run over one row range keeps for the end of the input. */
+interface UnparseableState {
+  input: number | null;
+  lenient: ColumnTallyState;
+}
 
 const ID = 'unparseable-value';
 
@@ -36,9 +42,11 @@ export const unparseableValue: Rule = {
   start() {
     const lenient = new ColumnTally();
     let input = 0;
+    let seen = false;
     return {
       check(batch, out, stats) {
         input = batch.input;
+        seen = true;
         stats.checked += batch.length;
         problemFindings(batch, 'unparseable', ID, 'warning', out);
         for (const p of batch.problems) {
@@ -56,6 +64,17 @@ export const unparseableValue: Rule = {
       },
       summary() {
         return { cellsReadLeniently: lenient.total() };
+      },
+      save(): UnparseableState {
+        return { input: seen ? input : null, lenient: lenient.save() };
+      },
+      absorb(state, shift) {
+        const s = state as UnparseableState;
+        if (s.input !== null) {
+          input = s.input;
+          seen = true;
+        }
+        lenient.absorb(s.lenient, shift);
       },
     };
   },

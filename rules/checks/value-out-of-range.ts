@@ -288,6 +288,10 @@ export const valueOutOfRange: Rule = {
           );
         }
       },
+      save: () => new Map(firedBy),
+      absorb(state) {
+        for (const [q, n] of state as Map<string, number>) firedBy.set(q, (firedBy.get(q) ?? 0) + n);
+      },
       summary() {
         return { rowsOutOfRangeByQuantity: Object.fromEntries(firedBy), maxMass, minMass };
       },

@@ -3,12 +3,16 @@ import type { SpillStore } from './spill.js';
 import type { Quantity } from './quantities.js';
 import {
   RuleStats,
+  SEVERITIES,
   type Batch,
   type Finding,
   type FindingSink,
   type ParamValue,
   type ParamValues,
   type PrepassState,
+  type RangeFilter,
+  type RangeState,
+  type RowShift,
   type Rule,
   type RuleRun,
   type Severity,
@@ -64,6 +68,18 @@ class BatchBuffer implements FindingSink {
   }
 }
 
+/** What saveState gives: the rows, accounting and rule states of one row range. */
+export interface InputRunState {
+  rows: number;
+  rules: { id: string; checked: number; skipped: [string, number][]; findings: Record<Severity, number>; state: RangeState }[];
+}
+
+/** A finding of a row range, renumbered as a row of the whole input. */
+export function shiftFinding(f: Finding, shift: RowShift): Finding {
+  if (shift.rows === 0 && shift.lines === 0) return f;
+  return { ...f, row: f.row === null ? null : f.row + shift.rows, line: f.line === null ? null : f.line + shift.lines };
+}
+
 const SEVERITY_ORDER: Record<Severity, number> = { error: 0, warning: 1, note: 2 };
 
 /**
@@ -102,6 +118,8 @@ export class InputRun {
   /** Rule order used to pick a row's root cause: screening rules first, then registry order. */
   private readonly rank = new Map<string, number>();
   private rows = 0;
+  /** The filters the rules gave for the range absorbed last (see admitting). */
+  private readonly filters = new Map<string, RangeFilter>();
 
   constructor(
     rules: readonly Rule[],
@@ -114,6 +132,8 @@ export class InputRun {
     prepass?: ReadonlyMap<string, PrepassState>,
     /** Where rules may keep per-row records until the end of the input (see spill.ts). */
     spill?: SpillStore,
+    /** The input's first rows (RunContext.sample). */
+    sample?: Batch,
   ) {
     rules.forEach((r, i) => this.rank.set(r.meta.id, (r.meta.stage === 'screen' ? 0 : 100) + i));
     rules.forEach((rule, i) => {
@@ -131,7 +151,7 @@ export class InputRun {
         details: {},
       };
       this.reports.set(rule.meta.id, report);
-      if (!missing.length && i >= part.from && i < part.to) this.active.push({ rule, run: rule.start({ params, bound, prepass: prepass?.get(rule.meta.id), spill }), stats: new RuleStats() });
+      if (!missing.length && i >= part.from && i < part.to) this.active.push({ rule, run: rule.start({ params, bound, prepass: prepass?.get(rule.meta.id), spill, sample }), stats: new RuleStats() });
     });
   }
 
@@ -188,11 +208,106 @@ export class InputRun {
     return [...this.reports.values()];
   }
 
-  private account(a: ActiveRule): RuleReport {
+  /**
+   * Whether this input may be checked in row ranges: every rule that keeps state between batches
+   * (it has `finish` or `summary`) can save and absorb it.
+   */
+  splittable(): boolean {
+    return this.active.every((a) => (!a.run.finish && !a.run.summary) || (a.run.save && a.run.absorb));
+  }
+
+  /** The state of a run over one row range, to be absorbed by the run that finishes the input. */
+  saveState(): InputRunState {
+    return {
+      rows: this.rows,
+      rules: this.active.map((a) => ({
+        id: a.rule.meta.id,
+        checked: a.stats.checked,
+        skipped: [...a.stats.skipped],
+        findings: { ...this.reports.get(a.rule.meta.id)!.findings },
+        state: a.run.save?.(),
+      })),
+    };
+  }
+
+  /**
+   * Takes in the state of the next row range, its rows and lines shifted by `shift`, as if this run
+   * had checked them. Ranges are absorbed in order; the findings those ranges emitted while
+   * checking go to the sink by the caller, shifted alike (shiftFinding), before `finish`.
+   */
+  absorbState(state: InputRunState, shift: RowShift): void {
+    this.filters.clear();
+    this.rows += state.rows;
+    const byId = new Map(state.rules.map((r) => [r.id, r]));
+    for (const a of this.active) {
+      const r = byId.get(a.rule.meta.id);
+      if (!r) throw new Error(`a row range was checked without rule ${a.rule.meta.id}`);
+      a.stats.checked += r.checked;
+      for (const [reason, n] of r.skipped) a.stats.skip(reason, n);
+      const counts = this.reports.get(a.rule.meta.id)!.findings;
+      for (const s of SEVERITIES) counts[s] += r.findings[s];
+      if (r.state !== undefined) {
+        const filter = a.run.absorb!(r.state, shift);
+        if (filter) this.filters.set(a.rule.meta.id, filter);
+      }
+    }
+  }
+
+  /**
+   * Where the findings of the range absorbed last go, renumbered, in the order it made them:
+   * through the rules' filters (RuleRun.absorb) to `sink`. A row that loses a finding is linked
+   * again among the findings it keeps, as one pass would have linked them; `end()` after the last.
+   */
+  admitting(sink: FindingSink): FindingSink & { end(): void } {
+    const filters = new Map(this.filters);
+    if (filters.size === 0) return { push: (f) => sink.push(f), end: () => undefined };
+    let group: Finding[] = [];
+    let dropped = false;
+    const flush = () => {
+      if (dropped) {
+        if (group.length === 1) {
+          group[0].cause = null;
+          group[0].related = [];
+        } else linkRow(group, this.rank);
+      }
+      for (const f of group) sink.push(f);
+      group = [];
+      dropped = false;
+    };
+    return {
+      push: (f) => {
+        if (f.row === null || (group.length && group[0].row !== f.row)) flush();
+        const keep = filters.get(f.rule)?.(f) ?? true;
+        if (!keep) {
+          this.reports.get(f.rule)!.findings[f.severity]--;
+          dropped = true;
+        } else if (f.row === null) sink.push(f);
+        else group.push(f);
+      },
+      end: flush,
+    };
+  }
+
+  /**
+   * The accounting of a run over one row range that will not finish here (a shard of one file):
+   * rows checked and skipped and findings so far; `details` waits for the run that finishes.
+   */
+  reportsSoFar(): RuleReport[] {
+    for (const a of this.active) {
+      const r = this.account(a, false);
+      r.details = {};
+    }
+    for (const r of this.reports.values()) {
+      if (r.status === 'skipped') r.skipped = { [r.reason ?? 'not run']: this.rows };
+    }
+    return [...this.reports.values()].map((r) => ({ ...r, skipped: { ...r.skipped }, findings: { ...r.findings } }));
+  }
+
+  private account(a: ActiveRule, details = true): RuleReport {
     const r = this.reports.get(a.rule.meta.id)!;
     r.checked = a.stats.checked;
     r.skipped = Object.fromEntries(a.stats.skipped);
-    r.details = a.run.summary?.() ?? {};
+    if (details) r.details = a.run.summary?.() ?? {};
     return r;
   }
 

@@ -86,6 +86,19 @@ export interface Batch {
    * them, so one bad cell yields one finding from the rule that understands it.
    */
   unusable: Partial<Record<NumericQuantity, Uint8Array>>;
+  /**
+   * Numbers about the whole input measured once on its first rows (the binder's sample; see
+   * SampleFact), the same object for every batch of the input, so a rule that needs a robust
+   * statistic of the column judges every row alike whatever the batch size or the row range.
+   * Absent where no sample was taken (rule tests): rules then measure the batch itself.
+   */
+  facts?: Readonly<Record<string, number>>;
+}
+
+/** A number the command line measures on an input's first rows and hands every batch in `facts`. */
+export interface SampleFact {
+  name: string;
+  measure(sample: Batch): number;
 }
 
 export interface ParamSpec {
@@ -207,6 +220,15 @@ export interface RunContext {
    * spill.ts); absent in tests and plain library use, where rules fall back to MemorySpill.
    */
   spill?: SpillStore;
+  /**
+   * The input's first rows (up to the binder's sample size, 16384), converted like any batch:
+   * for rules that judge a row against a habit or a typical value of the whole column, which must
+   * not depend on which rows came earlier in the same batch or range. A rule must not mark it
+   * (copy `unusable` first). Every run over the input (any thread, range or shard) gets the same
+   * sample; absent in rule tests and in the run that only absorbs and finishes (merge), where a
+   * rule falls back to what it has.
+   */
+  sample?: Batch;
 }
 
 /** A value that survives JSON.stringify and JSON.parse unchanged. */
@@ -237,12 +259,55 @@ export interface RulePrepass {
   merge(a: PrepassState, b: PrepassState): PrepassState;
 }
 
+/**
+ * Where a later part of an input starts, when one input is checked in row ranges (threads, shards
+ * of one file): each range numbers its rows from 1 and its physical lines from 1, and this is what
+ * must be added to turn them into the numbers of the whole input.
+ */
+export interface RowShift {
+  rows: number;
+  lines: number;
+}
+
+/**
+ * What a rule run kept over its range for `finish` and `summary`, as data: plain objects, arrays,
+ * numbers, strings, Maps, typed arrays, and SpillHandles; never functions or class instances, so
+ * it survives a thread's structured clone and the v8 serializer of a shard's state file.
+ */
+export type RangeState = unknown;
+
+/** See RuleRun.absorb: true keeps a finding of the range just absorbed, false drops it. */
+export type RangeFilter = (f: Finding) => boolean;
+
 export interface RuleRun {
+  /**
+   * Checks one batch. The findings pushed here must depend on the batch alone (and the run's
+   * parameters): anything that needs earlier rows waits for `finish`, so that an input checked in
+   * row ranges gives the findings of one pass.
+   */
   check(batch: Batch, out: FindingSink, stats: RuleStats): void;
   /** Called once after the last batch of an input, for rules that judge the whole column. */
   finish?(out: FindingSink, stats: RuleStats): void;
   /** Extra facts for the summary (relation used, chance exceedances ...). */
   summary?(): Record<string, unknown>;
+  /**
+   * For an input checked in row ranges: what this run kept over its rows (see RangeState). Rules
+   * that keep nothing between batches omit `save` and `absorb`; a rule with `finish` or `summary`
+   * but no `save` makes the input run in one range.
+   */
+  save?(): RangeState;
+  /**
+   * Takes in the state `save` gave on a run over the rows that follow all rows this run has seen
+   * or absorbed, as if this run had checked those rows itself; that run's row and line numbers
+   * are shifted by `shift`. A fresh run that absorbs the states of every range in order, then
+   * finishes, gives the `finish` findings and `summary` of a single run over the whole input.
+   *
+   * A rule that lists only the first rows of a kind while checking (a cap) cannot know, in a
+   * later range, how many the ranges before it listed: it returns a RangeFilter, which is asked,
+   * in row order, about each finding this rule made while checking that range (renumbered), and
+   * says whether one pass would have made it.
+   */
+  absorb?(state: RangeState, shift: RowShift): RangeFilter | void;
 }
 
 export interface Rule {

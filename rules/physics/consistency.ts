@@ -5,7 +5,7 @@
  * verdict can only be given once the whole column has been seen. Pure: no I/O, no rule names.
  */
 import { columnFinding } from '../engine/findings.js';
-import type { Finding, FindingSink } from '../engine/types.js';
+import type { Finding, FindingSink, RowShift } from '../engine/types.js';
 
 /** A finite, non-negative uncertainty from an optional error array, else 0 (no error stated). */
 export function errAt(errs: Float64Array | null | undefined, i: number): number {
@@ -100,40 +100,112 @@ export class ResidualTally {
     const sameSide = m > 0 ? this.quantile(0.25) > 0 : this.quantile(0.75) < 0;
     return sameSide ? m : NaN;
   }
+
+  /** The tally as data, only the occupied bins: a column near one offset fills a handful of 10 000. */
+  save(): TallyState {
+    let used = 0;
+    for (let b = 0; b < this.bins.length; b++) if (this.bins[b] !== 0) used++;
+    const index = new Int32Array(used);
+    const counts = new Int32Array(used);
+    const sums = new Float64Array(used);
+    for (let b = 0, j = 0; b < this.bins.length; b++) {
+      if (this.bins[b] === 0) continue;
+      index[j] = b;
+      counts[j] = this.bins[b];
+      sums[j++] = this.sums[b];
+    }
+    return { index, counts, sums, below: this.below, above: this.above, n: this.n };
+  }
+
+  /**
+   * Adds a saved tally of the same shape. Counts add exactly; a bin's sum may differ from one
+   * pass's in its last bits (addition order), far below the round6 of anything reported.
+   */
+  absorb(s: TallyState): void {
+    for (let j = 0; j < s.index.length; j++) {
+      const b = s.index[j];
+      this.bins[b] += s.counts[j];
+      this.sums[b] += s.sums[j];
+    }
+    this.below += s.below;
+    this.above += s.above;
+    this.n += s.n;
+  }
 }
 
-/**
- * A finding already built, held as a DeferredFindings entry. Made here, outside any rule's check(),
- * on purpose: a closure written inside check() shares that call's scope with every other closure
- * there and can keep the whole batch's arrays alive for as long as it is held.
- */
-export function heldFinding(f: Finding): (offset: number) => Finding {
-  return () => f;
+/** A ResidualTally as plain data (see ResidualTally.save). */
+export interface TallyState {
+  index: Int32Array;
+  counts: Int32Array;
+  sums: Float64Array;
+  below: number;
+  above: number;
+  n: number;
 }
+
+/** A held finding's verdict as a closure over its row's numbers (tests, runs that are never split). */
+export type LaterFinding = (offset: number) => Finding | null;
+
+/**
+ * How a rule turns what it held for a row into the finding, once the column offset is known, and
+ * how that data is renumbered when it was held in a later row range. The data is plain (numbers,
+ * strings, a Finding), so a range's state can be saved; the functions stay with the rule.
+ */
+export interface HeldKind<T> {
+  build(data: T, offset: number): Finding | null;
+  /** The data with its row and line numbers shifted (a copy: the saved state is left as it was). */
+  move(data: T, shift: RowShift): T;
+}
+
+/** A row finding renumbered for the whole input, as a copy. */
+export function movedFinding(f: Finding, shift: RowShift): Finding {
+  return { ...f, row: f.row === null ? null : f.row + shift.rows, line: f.line === null ? null : f.line + shift.lines };
+}
+
+/** Held findings that are already complete: held only in case a column verdict folds them. */
+export const FINISHED: HeldKind<Finding> = { build: (f) => f, move: movedFinding };
+
+const CLOSURES: HeldKind<LaterFinding> = {
+  build: (later, offset) => later(offset),
+  move: () => {
+    throw new Error('a held closure cannot be saved for another row range; hold data with a HeldKind');
+  },
+};
 
 /** Default cap on findings held back until the end of an input. */
 export const DEFERRED_CAP = 20_000;
 
+/** DeferredFindings as plain data (see DeferredFindings.save). */
+export interface DeferredState<T> {
+  items: { tag: number; data: T }[];
+  pushed: Map<number, number>;
+  dropped: number;
+}
+
 /**
  * Findings that can only be finished once the whole column is known (they depend on its offset,
- * or may be folded into one column finding). Each entry is a small closure over the numbers of
- * one row, never the batch; at most `cap` are held, the rest are counted.
+ * or may be folded into one column finding). Each entry is the data of one row, never the batch,
+ * turned into a finding by `kind` at the end; at most `cap` are held (the first in row order), the
+ * rest are counted.
  */
-export class DeferredFindings {
-  private readonly items: { tag: number; build: (offset: number) => Finding | null }[] = [];
+export class DeferredFindings<T = LaterFinding> {
+  private items: { tag: number; data: T }[] = [];
   /** Entries pushed per tag, including those beyond the cap. */
   readonly pushed = new Map<number, number>();
   dropped = 0;
 
-  constructor(private readonly cap = DEFERRED_CAP) {}
+  constructor(
+    private readonly cap = DEFERRED_CAP,
+    private readonly kind: HeldKind<T> = CLOSURES as unknown as HeldKind<T>,
+  ) {}
 
-  push(tag: number, build: (offset: number) => Finding | null): void {
+  push(tag: number, data: T): void {
     this.pushed.set(tag, (this.pushed.get(tag) ?? 0) + 1);
     if (this.items.length >= this.cap) {
       this.dropped++;
       return;
     }
-    this.items.push({ tag, build });
+    this.items.push({ tag, data });
   }
 
   count(tag: number): number {
@@ -145,14 +217,32 @@ export class DeferredFindings {
     let n = 0;
     for (const it of this.items) {
       if (it.tag === skipTag) continue;
-      const f = it.build(offset);
+      const f = this.kind.build(it.data, offset);
       if (f) {
         out.push(f);
         n++;
       }
     }
-    this.items.length = 0;
+    this.items = [];
     return n;
+  }
+
+  save(): DeferredState<T> {
+    return { items: this.items.slice(), pushed: new Map(this.pushed), dropped: this.dropped };
+  }
+
+  /**
+   * Takes in the entries held over the rows that follow: they fill the cap after this buffer's
+   * own, so the buffer holds the first `cap` entries of the whole input as one pass would.
+   */
+  absorb(s: DeferredState<T>, shift: RowShift): void {
+    for (const [tag, n] of s.pushed) this.pushed.set(tag, (this.pushed.get(tag) ?? 0) + n);
+    const moves = shift.rows !== 0 || shift.lines !== 0;
+    for (const it of s.items) {
+      if (this.items.length >= this.cap) this.dropped++;
+      else this.items.push({ tag: it.tag, data: moves ? this.kind.move(it.data, shift) : it.data });
+    }
+    this.dropped += s.dropped;
   }
 }
 
@@ -161,9 +251,9 @@ export class DeferredFindings {
  * only at the end of the input. Rows that pass or fail whatever the offset are settled as they
  * stream by; the few in between are held (capped) and judged once the offset is measured.
  */
-export class OffsetJudge {
+export class OffsetJudge<T> {
   readonly tally: ResidualTally;
-  readonly held = new DeferredFindings();
+  readonly held: DeferredFindings<T>;
   /** The column offset found by `settle`, NaN when there is none. */
   offset = NaN;
 
@@ -173,8 +263,10 @@ export class OffsetJudge {
     private readonly minOffset: number,
     private readonly maxOffset: number,
     private readonly minRows: number,
+    private readonly kind: HeldKind<T>,
   ) {
     this.tally = new ResidualTally(halfRange, binWidth);
+    this.held = new DeferredFindings(DEFERRED_CAP, kind);
   }
 
   /** Counts the residual; true when the row needs a finding built (it fails for some allowed offset). */
@@ -184,11 +276,11 @@ export class OffsetJudge {
   }
 
   /** Pushes the finding now when the row fails whatever the offset, else holds it for `settle`. */
-  route(residual: number, allowed: number, out: FindingSink, build: (offset: number) => Finding | null): void {
+  route(residual: number, allowed: number, out: FindingSink, data: T): void {
     if (offsetBand(residual, allowed, this.maxOffset) === 1) {
-      const f = build(0);
+      const f = this.kind.build(data, 0);
       if (f) out.push(f);
-    } else this.held.push(0, build);
+    } else this.held.push(0, data);
   }
 
   /** Measures the column offset, judges the held rows against it, and returns it (0 when none). */
@@ -198,6 +290,21 @@ export class OffsetJudge {
     this.held.flush(out, off);
     return off;
   }
+
+  /** The tally and the held rows of a row range, as data; the offset is only measured at the end. */
+  save(): OffsetJudgeState<T> {
+    return { tally: this.tally.save(), held: this.held.save() };
+  }
+
+  absorb(s: OffsetJudgeState<T>, shift: RowShift): void {
+    this.tally.absorb(s.tally);
+    this.held.absorb(s.held, shift);
+  }
+}
+
+export interface OffsetJudgeState<T> {
+  tally: TallyState;
+  held: DeferredState<T>;
 }
 
 /** The column note for rows a full buffer could not list, or null when none were left out. */

@@ -83,10 +83,10 @@ export interface Checked {
 export async function checkPath(path: string, options: OpenOptions = {}, bind: BindOptions = { bind: {}, units: {} }): Promise<Checked> {
   const reader = await openCatalog(path, options);
   try {
-    const { it, ahead, binding } = await bindFromFirstBatch(reader, bind);
+    const { it, ahead, binding, sampleBatch } = await bindFromFirstBatch(reader, bind);
     const findings: Finding[] = [];
     const rules = selectRules(ALL_RULES, {});
-    const run = new InputRun(rules, {}, boundMap(binding), { push: (f) => findings.push(f) });
+    const run = new InputRun(rules, {}, boundMap(binding), { push: (f) => findings.push(f) }, undefined, undefined, undefined, sampleBatch);
     const feed = (raw: RawBatch) => run.processBatch(toBatch(raw, binding, 0));
     for (const raw of ahead) feed(raw);
     for (let r = await it.next(); !r.done; r = await it.next()) feed(r.value);

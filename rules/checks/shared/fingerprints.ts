@@ -6,8 +6,9 @@
  * any false match is about 3e-4.
  */
 import { columnFinding } from '../../engine/findings.js';
-import { MemorySpill, type SpillLog, type SpillStore } from '../../engine/spill.js';
-import type { Batch, Finding, FindingSink, RuleStats, TextColumn } from '../../engine/types.js';
+import { shiftFinding } from '../../engine/runner.js';
+import { MemorySpill, type SpillHandle, type SpillLog, type SpillStore } from '../../engine/spill.js';
+import type { Batch, Finding, FindingSink, RowShift, RuleStats, TextColumn } from '../../engine/types.js';
 
 const f64 = new Float64Array(1);
 const u32 = new Uint32Array(f64.buffer);
@@ -242,6 +243,20 @@ export class RepeatLog {
     this.firstRows = new FirstByRow(cap);
   }
 
+  /**
+   * For an input checked in row ranges: what the checking kept, which is the rows judged. Repeats
+   * are only known once the key log is replayed over the whole input, so a range has none yet.
+   */
+  save(): RepeatLogState {
+    if (this.repeats > 0) throw new Error('a repeat log is saved before its key log is replayed');
+    return { rows: this.rows };
+  }
+
+  /** Takes in the rows judged in a later range. */
+  absorb(state: RepeatLogState): void {
+    this.rows += state.rows;
+  }
+
   /** Records a repeat at `row` whose key now has `count` rows; `finding` is built only while it may be listed. */
   repeat(count: number, key: string, row: number, finding: () => Finding): void {
     this.repeats++;
@@ -284,6 +299,10 @@ export class RepeatLog {
   }
 }
 
+export interface RepeatLogState {
+  rows: number;
+}
+
 /**
  * The row findings with the lowest rows among those offered in any order, at most `cap`: what a
  * pass in row order that stops listing after `cap` would have listed. Holds at most 2 cap.
@@ -316,6 +335,23 @@ export class FirstByRow {
     this.trim();
     return this.held;
   }
+
+  /** The kept findings, for an input checked in row ranges (at most `cap`). */
+  save(): FirstByRowState {
+    return { held: [...this.list()] };
+  }
+
+  /**
+   * Offers the findings kept over a later range, renumbered by `shift`. Only their row and line
+   * move, so this is for findings whose other fields quote no row number.
+   */
+  absorb(state: FirstByRowState, shift: RowShift): void {
+    for (const f of state.held) this.offer(f.row! + shift.rows, () => shiftFinding(f, shift));
+  }
+}
+
+export interface FirstByRowState {
+  held: Finding[];
 }
 
 /** Partitions of a key log: at 10M rows each holds about 160 000 rows (5 MB) when it is replayed. */
@@ -354,6 +390,22 @@ export class KeyLog {
     this.log.append(lo & (KEY_LOG_PARTITIONS - 1), r, text);
   }
 
+  /** Hands the log over, for an input checked in row ranges; the log takes no more rows. */
+  save(): KeyLogState {
+    return { log: this.log.detach() };
+  }
+
+  /**
+   * Takes in the keys of the rows of a later range, their rows and lines shifted by `shift`, after
+   * those here: partition by partition, the records stay in row order.
+   */
+  absorb(state: KeyLogState, shift: RowShift): void {
+    const add = new Float64Array(KEY_FIELDS + this.extra);
+    add[2] = shift.rows;
+    add[3] = shift.lines;
+    this.log.absorb(state.log, add);
+  }
+
   /**
    * Replays every partition: `visit` gets, per row in row order within its partition, the entry
    * number of its key in that partition, whether the row is the key's first, the key's first row
@@ -385,6 +437,10 @@ export class KeyLog {
     }
     this.log.close();
   }
+}
+
+export interface KeyLogState {
+  log: SpillHandle;
 }
 
 /** One row as `KeyLog.replay` hands it over (reused from row to row). */

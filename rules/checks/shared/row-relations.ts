@@ -5,7 +5,7 @@
  * (decimal-shift, swapped-columns) set the row's values once, change one, and ask again. One
  * instance per rule run, reused row after row: no object per row.
  */
-import type { Batch, ParamSpec, QuantityColumn, Reference } from '../../engine/types.js';
+import type { Batch, ParamSpec, QuantityColumn, Reference, SampleFact } from '../../engine/types.js';
 import { usableValues } from '../../engine/usable.js';
 import { StarClass } from '../../physics/classify.js';
 import { LOGG_SUN, TEFF_SUN_K } from '../../physics/constants.js';
@@ -52,6 +52,13 @@ export const ROW_RELATION_REFERENCES: readonly Reference[] = [
   { cite: 'Eker et al. 2018, MNRAS 479, 5491; Tout et al. 1996, MNRAS 281, 257 (main-sequence mass-luminosity relation)' },
 ];
 
+/**
+ * The gravity scatter of an input, measured on its first rows: a column's grid logg is a property
+ * of the catalog, and judging each batch by its own scatter would make a row's verdict depend on
+ * which rows share its batch.
+ */
+export const GRAVITY_SCATTER: SampleFact = { name: 'gravityScatter', measure: (sample) => gravityScatter({ ...sample, facts: undefined }) };
+
 /** Batches smaller than this give no robust logg scatter (it is then taken as 0). */
 const SCATTER_MIN_ROWS = 20;
 const scatterCache = new WeakMap<Batch, number>();
@@ -64,6 +71,8 @@ const scatterCache = new WeakMap<Batch, number>();
  * as cgs/SI or a unit slip. A column wholly in another unit moves the median, not the scatter.
  */
 export function gravityScatter(batch: Batch): number {
+  const fixed = batch.facts?.[GRAVITY_SCATTER.name];
+  if (fixed !== undefined) return fixed;
   const hit = scatterCache.get(batch);
   if (hit !== undefined) return hit;
   const m = batch.quantities.mass?.value;

@@ -8,7 +8,8 @@ import { COLUMN_VERDICT_MIN_ROWS, columnFinding, fmt, round6, rowFinding } from 
 import type { NumericQuantity } from '../../engine/quantities.js';
 import { QUANTITY_INFO } from '../../engine/quantities.js';
 import { isUnusable, markUnusable } from '../../engine/usable.js';
-import type { Batch, Finding, FindingSink, ParamSpec, ParamValues, QuantityColumn, RuleStats } from '../../engine/types.js';
+import { shiftFinding } from '../../engine/runner.js';
+import { RuleStats, type Batch, type Finding, type FindingSink, type ParamSpec, type ParamValues, type QuantityColumn, type RowShift } from '../../engine/types.js';
 import { L_SUN_W } from '../../physics/constants.js';
 import { log10GaussianRatio, normalUpperTail, poissonUpperTail } from '../../physics/statistics.js';
 import { LINEAR_FACTORS } from '../../physics/units.js';
@@ -118,9 +119,8 @@ export interface UnitMixupSpec {
    * The quantity is one decimal-shift judges (a linear M, R, L or Teff): a reading is not claimed
    * where the declared value moved by one decimal place fits the row clearly better
    * (by more than 0.5 sigma), so a slipped decimal point is left to decimal-shift rather than read
-   * as a coincidental unit (0.096 M_sun as log M = 0.096, that is 1.25 M_sun). Not where the column
-   * has already shown that reading on many rows (at least 10, and 2 % of those judged): a column
-   * that mixes units says which.
+   * as a coincidental unit (0.096 M_sun as log M = 0.096, that is 1.25 M_sun). Not where that
+   * reading is the column's habit (see UnitMixupScreen.learn): a column that mixes units says which.
    */
   shiftable?: boolean;
 }
@@ -133,9 +133,14 @@ const SHIFT_MARGIN_SIGMA = 0.5;
  * where the column's other rows usually say which.
  */
 const SHIFTS = [-1, 1] as const;
-/** A reading already chosen for this many rows, and this share of those judged, is the column's habit. */
+/** A reading chosen for this many rows of the sample, and this share of those judged, is the column's habit. */
 const COLUMN_HABIT_MIN = 10;
 const COLUMN_HABIT_SHARE = 0.02;
+
+/** Whether `fired` rows read in a unit, of `judged`, make that unit the column's habit. */
+function columnHabit(fired: number, judged: number): boolean {
+  return fired >= COLUMN_HABIT_MIN && fired >= COLUMN_HABIT_SHARE * judged;
+}
 
 /** Parameters every unit mix-up screen has; a rule may add its own after them. */
 export const MIXUP_PARAMS: readonly ParamSpec[] = [
@@ -185,8 +190,27 @@ function chiSquare(lg: number, e: Expectations): number {
   }
   return c;
 }
+/**
+ * Whether moving the declared value's decimal point by one place (SHIFTS) fits every expectation
+ * within acceptSigma and beats the reading at `lg` by more than SHIFT_MARGIN_SIGMA at its worst.
+ */
+function shiftFitsBetter(lg: number, declaredLog: number, e: Expectations, acceptSigma: number): boolean {
+  const unitZ = worstZ(lg, e);
+  for (const sh of SHIFTS) {
+    const z = worstZ(declaredLog + sh, e);
+    if (z <= acceptSigma && z + SHIFT_MARGIN_SIGMA < unitZ) return true;
+  }
+  return false;
+}
+
+/** The largest |lg - e_j| / s_j over the row's expectations. */
+function worstZ(lg: number, e: Expectations): number {
+  let z = 0;
+  for (let j = 0; j < e.n; j++) z = Math.max(z, Math.abs(lg - e.value[j]) / e.sigma[j]);
+  return z;
+}
 const MAX_BASES = 4;
-/** Fewer plausible declared values than this in a batch give no column distribution to weigh readings by. */
+/** Fewer plausible declared values than this in the sample give no column distribution to weigh readings by. */
 const COLUMN_PRIOR_MIN_ROWS = 20;
 /** The column distribution is never taken narrower than this (dex), so one catalog's spread cannot rule a reading out. */
 const COLUMN_PRIOR_MIN_SIGMA = 0.5;
@@ -242,6 +266,24 @@ export class Expectations {
   }
 }
 
+/** What a screen kept over a row range (see RangeState): counts, and the first row findings in row order. */
+export interface ScreenState {
+  seen: boolean;
+  input: number;
+  column: string;
+  judged: number;
+  withExpectation: number;
+  beyond3: number;
+  chance: number;
+  firedByUnit: number[];
+  ambiguousRows: number;
+  leftToShift: number;
+  kept: Finding[];
+}
+
+/** A screen rule's own judging of one batch, done by the given screen: what its `check` does. */
+export type ScreenLoop = (screen: UnitMixupScreen, batch: Batch, stats: RuleStats) => void;
+
 /**
  * The decision and the bookkeeping of one unit mix-up screen over one input: which reading fits,
  * the cell marked unusable, counts per likely unit, the capped buffer of row findings and the
@@ -274,6 +316,8 @@ export class UnitMixupScreen {
   runnerUpLog10Ratio = NaN;
   judged = 0;
   fired = 0;
+  /** Rows where the row fitted a reading but another cell of the row could explain it as well (the rule calls `ambiguous`). */
+  ambiguousRows = 0;
   /** Rows judged against at least one expectation, and those whose declared reading misses the first by more than 3 sigma. */
   private withExpectation = 0;
   private beyond3 = 0;
@@ -283,14 +327,22 @@ export class UnitMixupScreen {
   private readonly buffer: Finding[] = [];
   private input = 0;
   private column = '';
-  private batch: Batch | undefined;
-  private priorBatch: Batch | null = null;
+  /** Whether `input` and `column` are known: a run that only absorbs ranges sees no batch. */
+  private seen = false;
+  /**
+   * Per reading, whether it is the column's habit (see `learn`); null until learned. A throwaway
+   * screen that judges the sample keeps it null and decides each row by the sample rows before it.
+   */
+  private habit: Uint8Array | null = null;
+  /** A throwaway screen of `learn`: it counts, but makes no row findings nobody would read. */
+  private probing = false;
+  /** The column's distribution of declared values (see `learnPrior`): median and spread in dex, NaN when unknown. */
   private priorCenter = NaN;
   private priorSigma = NaN;
 
   constructor(
     readonly spec: UnitMixupSpec,
-    params: ParamValues,
+    private readonly params: ParamValues,
     declaredUnit: string | undefined,
     private readonly skipFlagged = true,
   ) {
@@ -303,6 +355,30 @@ export class UnitMixupScreen {
     this.declaredIndex = spec.readings.findIndex((r) => r.unit === this.declaredUnit);
     this.shiftable = spec.shiftable === true && this.declaredIndex >= 0 && !spec.readings[this.declaredIndex].log;
     this.firedByUnit = new Array<number>(spec.readings.length).fill(0);
+  }
+
+  /**
+   * Learns, once, what the column is like from the input's sample (its first rows, the same for
+   * every thread, range and shard), so that a row's verdict depends on the row alone: the column's
+   * distribution of declared values (`learnPrior`) and its habit, the readings the column shows
+   * often. For the habit, `loop` (the rule's own judging) runs over a copy of the sample with a
+   * throwaway screen, which decides each sample row by the sample rows before it; a reading it
+   * chose for at least 10 rows, and 2 % of those judged, is the habit, and a row of any batch
+   * that a slipped decimal point fits better (UnitMixupSpec.shiftable) is read in it only then.
+   * The copy starts with no cells marked, so the sample itself is never marked. Called again
+   * after the first learning it does nothing; rule tests and plain library use, which have no
+   * sample, learn from the first batch checked instead.
+   */
+  learn(sample: Batch | undefined, loop: ScreenLoop): void {
+    if (this.habit || !sample) return;
+    const probe = new UnitMixupScreen(this.spec, this.params, this.declaredUnit, this.skipFlagged);
+    probe.probing = true;
+    const copy: Batch = { ...sample, unusable: {} };
+    probe.learnPrior(copy);
+    loop(probe, copy, new RuleStats());
+    this.priorCenter = probe.priorCenter;
+    this.priorSigma = probe.priorSigma;
+    this.habit = Uint8Array.from(probe.firedByUnit, (n) => (columnHabit(n, probe.judged) ? 1 : 0));
   }
 
   /**
@@ -334,6 +410,11 @@ export class UnitMixupScreen {
     if (this.flag(batch, i, k)) this.keep(this.rowFinding(batch, i, raw, declaredLog, k, e, basisText));
   }
 
+  /** The row fitted a reading, but another cell of the row would explain it as well: the rule stays silent. */
+  ambiguous(): void {
+    this.ambiguousRows++;
+  }
+
   /** log10 canonical of the cell as declared; `canonicalLog` is used when the declared unit is no reading. */
   declaredLog(raw: number, canonicalLog: number): number {
     return this.declaredIndex >= 0 ? readingLog(this.spec.readings[this.declaredIndex], raw) : canonicalLog;
@@ -343,7 +424,51 @@ export class UnitMixupScreen {
   begin(batch: Batch, column: string): void {
     this.input = batch.input;
     this.column = column;
-    this.batch = batch;
+    this.seen = true;
+  }
+
+  /** What `finish` and `summary` need of the rows seen or absorbed, as plain data (see RangeState). */
+  save(): ScreenState {
+    return {
+      seen: this.seen,
+      input: this.input,
+      column: this.column,
+      judged: this.judged,
+      withExpectation: this.withExpectation,
+      beyond3: this.beyond3,
+      chance: this.chance,
+      firedByUnit: this.firedByUnit.slice(),
+      ambiguousRows: this.ambiguousRows,
+      leftToShift: this.leftToShift,
+      kept: this.buffer,
+    };
+  }
+
+  /**
+   * Takes in the state of the rows that follow (see RuleRun.absorb). Every verdict was made in
+   * `check` from the row and what was learned from the sample, so the counts add up and the
+   * listed findings follow on, up to the cap, as one pass lists them.
+   */
+  absorb(s: ScreenState, shift: RowShift): void {
+    if (s.seen && !this.seen) {
+      this.input = s.input;
+      this.column = s.column;
+      this.seen = true;
+    }
+    this.judged += s.judged;
+    this.withExpectation += s.withExpectation;
+    this.beyond3 += s.beyond3;
+    this.chance += s.chance;
+    for (let k = 0; k < this.firedByUnit.length; k++) {
+      this.firedByUnit[k] += s.firedByUnit[k];
+      this.fired += s.firedByUnit[k];
+    }
+    this.ambiguousRows += s.ambiguousRows;
+    this.leftToShift += s.leftToShift;
+    for (const f of s.kept) {
+      if (this.buffer.length >= ROW_BUFFER_CAP) break;
+      this.buffer.push(shiftFinding(f, shift));
+    }
   }
 
   private plausible(k: number, lg: number): boolean {
@@ -363,7 +488,7 @@ export class UnitMixupScreen {
    * value no star can have is explained by the most probable stellar reading however well it fits.
    *
    * Without expectations, only a declared value no star can have is judged, and the plausible
-   * reading nearest the column's own values (their median and spread in the batch) is taken.
+   * reading nearest the column's own values (their median and spread, see `learnPrior`) is taken.
    */
   decide(raw: number, declaredLog: number, e: Expectations): number {
     const { readings } = this.spec;
@@ -418,21 +543,10 @@ export class UnitMixupScreen {
         if (declaredDist < (e.n === 1 ? this.minMissSingle : this.minMiss)) return -1;
       }
       // A decimal point moved by one place that fits clearly better is left to decimal-shift, unless
-      // the column has shown this reading often already (a column that mixes units says which).
-      if (this.shiftable && Number.isFinite(declaredLog) && !(this.firedByUnit[best] >= COLUMN_HABIT_MIN && this.firedByUnit[best] >= COLUMN_HABIT_SHARE * this.judged)) {
-        const worst = (lg: number) => {
-          let z = 0;
-          for (let j = 0; j < e.n; j++) z = Math.max(z, Math.abs(lg - e.value[j]) / e.sigma[j]);
-          return z;
-        };
-        const unitZ = worst(lg);
-        for (const sh of SHIFTS) {
-          const z = worst(declaredLog + sh);
-          if (z <= this.acceptSigma && z + SHIFT_MARGIN_SIGMA < unitZ) {
-            this.leftToShift++;
-            return -1;
-          }
-        }
+      // the reading is the column's habit (a column that mixes units says which).
+      if (this.shiftable && Number.isFinite(declaredLog) && !this.isHabit(best) && shiftFitsBetter(lg, declaredLog, e, this.acceptSigma)) {
+        this.leftToShift++;
+        return -1;
       }
       this.bestDist = Math.abs(lg - e.value[0]);
       this.log10Ratio = log10Ratio;
@@ -443,7 +557,8 @@ export class UnitMixupScreen {
       return best;
     }
     if (declaredPlausible) return -1;
-    const { center, sigma } = this.columnPrior(this.batch);
+    const center = this.priorCenter;
+    const sigma = this.priorSigma;
     let best = -1;
     let bestScore = Infinity;
     let second = -1;
@@ -474,36 +589,34 @@ export class UnitMixupScreen {
   }
 
   /**
-   * Median and robust spread (1.4826 x MAD, at least 0.5 dex) of the declared values of the batch
-   * that stars can have, in log10 canonical units: what "a value of this column" looks like. NaN
-   * without a batch or with fewer than 20 such values. Worked out once per batch, only when a row
-   * without expectations needs it.
+   * Whether reading k is the column's habit: as learned from the sample, or, for the screen that
+   * judges the sample itself, whether the sample rows before have chosen it often (columnHabit).
    */
-  private columnPrior(batch: Batch | undefined): { center: number; sigma: number } {
-    if (!batch) return { center: NaN, sigma: NaN };
-    if (batch !== this.priorBatch) {
-      this.priorBatch = batch;
-      this.priorCenter = NaN;
-      this.priorSigma = NaN;
-      const col = batch.quantities[this.spec.quantity];
-      if (col) {
-        const logs = new Float64Array(batch.length);
-        let n = 0;
-        for (let i = 0; i < batch.length; i++) {
-          const lg = this.declaredLog(col.raw[i], this.spec.canonicalIsLog ? col.value[i] : Math.log10(col.value[i]));
-          if (lg >= this.spec.plausibleMin && lg <= this.spec.plausibleMax) logs[n++] = lg;
-        }
-        if (n >= COLUMN_PRIOR_MIN_ROWS) {
-          const a = logs.subarray(0, n).sort();
-          const med = a[n >> 1];
-          for (let i = 0; i < n; i++) a[i] = Math.abs(a[i] - med);
-          a.sort();
-          this.priorCenter = med;
-          this.priorSigma = Math.max(COLUMN_PRIOR_MIN_SIGMA, 1.4826 * a[n >> 1]);
-        }
-      }
+  private isHabit(k: number): boolean {
+    return this.habit ? this.habit[k] === 1 : columnHabit(this.firedByUnit[k], this.judged);
+  }
+
+  /**
+   * Median and robust spread (1.4826 x MAD, at least 0.5 dex) of the declared values of the
+   * sample that stars can have, in log10 canonical units: what "a value of this column" looks
+   * like. NaN with fewer than 20 such values.
+   */
+  private learnPrior(sample: Batch): void {
+    const col = sample.quantities[this.spec.quantity];
+    if (!col) return;
+    const logs = new Float64Array(sample.length);
+    let n = 0;
+    for (let i = 0; i < sample.length; i++) {
+      const lg = this.declaredLog(col.raw[i], this.spec.canonicalIsLog ? col.value[i] : Math.log10(col.value[i]));
+      if (lg >= this.spec.plausibleMin && lg <= this.spec.plausibleMax) logs[n++] = lg;
     }
-    return { center: this.priorCenter, sigma: this.priorSigma };
+    if (n < COLUMN_PRIOR_MIN_ROWS) return;
+    const a = logs.subarray(0, n).sort();
+    const med = a[n >> 1];
+    for (let i = 0; i < n; i++) a[i] = Math.abs(a[i] - med);
+    a.sort();
+    this.priorCenter = med;
+    this.priorSigma = Math.max(COLUMN_PRIOR_MIN_SIGMA, 1.4826 * a[n >> 1]);
   }
 
   /**
@@ -514,7 +627,7 @@ export class UnitMixupScreen {
     this.fired++;
     this.firedByUnit[k]++;
     markUnusable(batch, this.spec.quantity, i);
-    return this.buffer.length < ROW_BUFFER_CAP;
+    return !this.probing && this.buffer.length < ROW_BUFFER_CAP;
   }
 
   /**

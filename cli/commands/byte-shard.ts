@@ -1,0 +1,168 @@
+/**
+ * `check --shard K/N` on a single CSV file: shard K checks the K-th of N byte ranges of the file's
+ * data with every rule, writes the findings its batches gave (rows numbered from the start of the
+ * range, lines as in the file) in its report, and the rules' states in a folder beside it (`<report>.state/`): a v8
+ * serialised InputRunState, and the spill logs of the duplicate rules as files. `starsieve merge`
+ * renumbers the findings, absorbs the states in order, and finishes the input, so the merged
+ * report is the one a single run writes.
+ */
+import { mkdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { join, relative, resolve, isAbsolute } from 'node:path';
+import { deserialize, serialize } from 'node:v8';
+import { InputRun, type InputRunState } from '../../rules/engine/runner.js';
+import { MemorySpill } from '../../rules/engine/spill.js';
+import { ConfigError } from '../../rules/engine/params.js';
+import { toBatch } from '../binding/to-batch.js';
+import type { Binding } from '../binding/types.js';
+import type { Batch } from '../../rules/engine/types.js';
+import { csvLayout, openCsvRange, shardRange, type ByteRange, type CsvLayout, type RangeCounts } from '../readers/byte-range.js';
+import type { ReaderStats } from '../readers/types.js';
+import { FileSpill } from '../spill/file-spill.js';
+import { bindFromFirstBatch, boundMap, inputSummary, openInput, selectBound } from './input-steps.js';
+import { RowTally, type InputResult, type RunInputsOptions } from './run-inputs.js';
+
+/** What a shard of one file records about its range, in the report's `shard.range`. */
+export interface ShardRange {
+  start: number;
+  end: number;
+  rows: number;
+  newlines: number;
+  blankLines: number;
+  /** Line of the first blank line within the range, 0 for none. */
+  firstBlankLine: number;
+  /** The state folder, relative to the report. */
+  state: string;
+}
+
+export interface ByteShardPlan {
+  layout: CsvLayout;
+  bytes: ByteRange;
+  binding: Binding;
+  /** The file's first rows (RunContext.sample): every shard reads them itself. */
+  sample?: Batch;
+}
+
+/** The state folder of a shard report. */
+export function stateDirOf(report: string): string {
+  return `${report}.state`;
+}
+
+const STATE_FILE = 'state.v8';
+
+/**
+ * The plan of shard `index` (1-based) of `count` for one input, or null when the input cannot be
+ * cut in byte ranges (not a plain UTF-8 CSV file, or a rule that cannot save its state); then the
+ * shards divide the inputs by file as usual. Every shard comes to the same answer on its own.
+ */
+export async function planByteShard(path: string, opts: Omit<RunInputsOptions, 'paths' | 'sink'>, index: number, count: number): Promise<ByteShardPlan | null> {
+  if (path === '-' || count < 2) return null;
+  const reader = await openInput(path, opts);
+  let binding: Binding;
+  let sample: Batch | undefined;
+  let layout: CsvLayout | null;
+  try {
+    ({ binding, sampleBatch: sample } = await bindFromFirstBatch(reader, opts.bind, opts.inputs?.[0] ?? 0));
+    layout = await csvLayout(reader);
+  } finally {
+    await reader.close();
+  }
+  if (!layout) return null;
+  const probe = new InputRun(opts.rules, opts.selection, boundMap(binding), { push: () => undefined }, undefined, undefined, new MemorySpill());
+  if (!probe.splittable()) return null;
+  return { layout, bytes: await shardRange(layout, index - 1, count), binding, sample };
+}
+
+export interface ByteShardResult extends InputResult {
+  range: ShardRange;
+}
+
+/** Checks the shard's range; findings go to the sink with rows numbered from the range's start. */
+export async function runByteShard(opts: RunInputsOptions, plan: ByteShardPlan, report: string): Promise<ByteShardResult> {
+  const stateDir = stateDirOf(report);
+  rmSync(stateDir, { recursive: true, force: true });
+  mkdirSync(stateDir, { recursive: true });
+  const spill = new FileSpill({ root: stateDir });
+  const { reader, counts } = await openCsvRange(plan.layout, plan.bytes, { batchSize: opts.batchSize });
+  const index = opts.inputs?.[0] ?? 0;
+  const tally = new RowTally(opts.sink);
+  try {
+    selectBound(reader, plan.binding);
+    const run = new InputRun(opts.rules, opts.selection, boundMap(plan.binding), tally, undefined, undefined, spill, plan.sample);
+    let rows = 0;
+    for await (const raw of reader.batches()) {
+      const batch = toBatch(raw, plan.binding, index);
+      run.processBatch(batch);
+      opts.observe?.(batch);
+      rows += raw.length;
+      opts.progress?.(opts.paths[0], rows, null);
+    }
+    const state = run.saveState();
+    writeFileSync(join(stateDir, STATE_FILE), serialize({ stats: { ...reader.stats }, counts, state: relativeHandles(state, stateDir) }));
+    const range: ShardRange = {
+      start: plan.bytes.start,
+      end: plan.bytes.end,
+      rows: reader.stats.rows,
+      newlines: counts.newlines,
+      blankLines: counts.blanks.count,
+      firstBlankLine: counts.blanks.firstLine,
+      state: relative(resolve(report, '..'), stateDir) || '.',
+    };
+    return {
+      binding: plan.binding,
+      rules: run.reportsSoFar(),
+      summary: inputSummary(index, opts.paths[0], reader.format, reader.stats, reader.notes ?? [], plan.binding, tally.rows.size),
+      range,
+    };
+  } finally {
+    await reader.close();
+  }
+}
+
+export interface ShardState {
+  stats: ReaderStats;
+  counts: RangeCounts;
+  state: InputRunState;
+}
+
+/** A shard's saved state, from the folder its report names. */
+export function readShardState(report: string, range: ShardRange): ShardState {
+  const dir = resolve(report, '..', range.state);
+  let bytes: Buffer;
+  try {
+    bytes = readFileSync(join(dir, STATE_FILE));
+  } catch {
+    throw new ConfigError(`${report}: its state folder ${dir} is missing or unreadable (keep it beside the report until the merge)`);
+  }
+  let saved: ShardState;
+  try {
+    saved = deserialize(bytes) as ShardState;
+  } catch {
+    throw new ConfigError(`${join(dir, STATE_FILE)}: not a shard state this version of Node can read (merge with the Node that ran the shards)`);
+  }
+  return { ...saved, state: absoluteHandles(saved.state, dir) };
+}
+
+/**
+ * File spill handles name their folders; in a state file they are written relative to the state
+ * folder, so the shard outputs may be moved (or gathered from other machines) before the merge.
+ */
+function relativeHandles<T>(state: T, root: string): T {
+  return mapHandles(state, (dir) => relative(root, dir));
+}
+
+function absoluteHandles<T>(state: T, root: string): T {
+  return mapHandles(state, (dir) => (isAbsolute(dir) ? dir : resolve(root, dir)));
+}
+
+function mapHandles<T>(value: T, f: (dir: string) => string): T {
+  if (Array.isArray(value)) return value.map((v) => mapHandles(v, f)) as T;
+  if (value instanceof Map) return new Map([...value].map(([k, v]) => [k, mapHandles(v, f)])) as T;
+  if (value && typeof value === 'object' && !ArrayBuffer.isView(value)) {
+    const o = value as Record<string, unknown>;
+    const out: Record<string, unknown> = {};
+    for (const [k, v] of Object.entries(o)) out[k] = mapHandles(v, f);
+    if (o.spillHandle === 'files' && typeof o.dir === 'string') out.dir = f(o.dir);
+    return out as T;
+  }
+  return value;
+}
