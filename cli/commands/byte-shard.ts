@@ -10,15 +10,14 @@ import { mkdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { join, relative, resolve, isAbsolute } from 'node:path';
 import { deserialize, serialize } from 'node:v8';
 import { InputRun, type InputRunState } from '../../rules/engine/runner.js';
-import { MemorySpill } from '../../rules/engine/spill.js';
 import { ConfigError } from '../../rules/engine/params.js';
 import { toBatch } from '../binding/to-batch.js';
 import type { Binding } from '../binding/types.js';
 import type { Batch } from '../../rules/engine/types.js';
-import { csvLayout, openCsvRange, shardRange, type ByteRange, type CsvLayout, type RangeCounts } from '../readers/byte-range.js';
+import { openCsvRange, shardRange, type ByteRange, type CsvLayout, type RangeCounts } from '../readers/byte-range.js';
 import type { ReaderStats } from '../readers/types.js';
 import { FileSpill } from '../spill/file-spill.js';
-import { bindFromFirstBatch, boundMap, inputSummary, openInput, selectBound } from './input-steps.js';
+import { boundMap, inputSummary, planSplit, selectBound } from './input-steps.js';
 import { RowTally, type InputResult, type RunInputsOptions } from './run-inputs.js';
 
 /** What a shard of one file records about its range, in the report's `shard.range`. */
@@ -55,21 +54,9 @@ const STATE_FILE = 'state.v8';
  * shards divide the inputs by file as usual. Every shard comes to the same answer on its own.
  */
 export async function planByteShard(path: string, opts: Omit<RunInputsOptions, 'paths' | 'sink'>, index: number, count: number): Promise<ByteShardPlan | null> {
-  if (path === '-' || count < 2) return null;
-  const reader = await openInput(path, opts);
-  let binding: Binding;
-  let sample: Batch | undefined;
-  let layout: CsvLayout | null;
-  try {
-    ({ binding, sampleBatch: sample } = await bindFromFirstBatch(reader, opts.bind, opts.inputs?.[0] ?? 0));
-    layout = await csvLayout(reader);
-  } finally {
-    await reader.close();
-  }
-  if (!layout) return null;
-  const probe = new InputRun(opts.rules, opts.selection, boundMap(binding), { push: () => undefined }, undefined, undefined, new MemorySpill());
-  if (!probe.splittable()) return null;
-  return { layout, bytes: await shardRange(layout, index - 1, count), binding, sample };
+  if (count < 2) return null;
+  const plan = await planSplit(path, opts, opts.inputs?.[0] ?? 0);
+  return plan && { ...plan, bytes: await shardRange(plan.layout, index - 1, count) };
 }
 
 export interface ByteShardResult extends InputResult {

@@ -1,6 +1,9 @@
 /** The steps of checking one input that the single-thread run and the worker threads share. */
 import { isNumericQuantity, type Quantity } from '../../rules/engine/quantities.js';
-import type { Batch } from '../../rules/engine/types.js';
+import type { Batch, Rule } from '../../rules/engine/types.js';
+import { InputRun, type RuleSelection } from '../../rules/engine/runner.js';
+import { MemorySpill } from '../../rules/engine/spill.js';
+import { csvLayout, type CsvLayout } from '../readers/byte-range.js';
 import { bindColumns } from '../binding/bind.js';
 import { toBatch } from '../binding/to-batch.js';
 import { SAMPLE_FACTS } from '../../rules/checks/index.js';
@@ -130,4 +133,36 @@ export function inputSummary(
     bound: binding.columns.map((b) => ({ quantity: b.quantity, column: b.column, unit: b.unit })),
     notes: [...readerNotes, ...binding.notes],
   };
+}
+
+export interface SplitPlan {
+  layout: CsvLayout;
+  binding: Binding;
+  sample: Batch | undefined;
+}
+
+/**
+ * What checking one input in byte ranges needs (threads, shards of one file): the binding and the
+ * sample from its first rows, and where its data starts; null when it cannot be cut (not a plain
+ * UTF-8 CSV file, or a selected rule that cannot save its state).
+ */
+export async function planSplit(
+  path: string,
+  s: ReaderSettings & { rules: readonly Rule[]; selection: RuleSelection; bind: BindOptions },
+  input: number,
+): Promise<SplitPlan | null> {
+  if (path === '-') return null;
+  const reader = await openInput(path, s);
+  let binding: Binding;
+  let sample: Batch | undefined;
+  let layout: CsvLayout | null;
+  try {
+    ({ binding, sampleBatch: sample } = await bindFromFirstBatch(reader, s.bind, input));
+    layout = await csvLayout(reader);
+  } finally {
+    await reader.close();
+  }
+  if (!layout) return null;
+  const probe = new InputRun(s.rules, s.selection, boundMap(binding), { push: () => undefined }, undefined, undefined, new MemorySpill());
+  return probe.splittable() ? { layout, binding, sample } : null;
 }

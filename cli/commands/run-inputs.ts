@@ -5,13 +5,12 @@ import type { Batch, Finding, FindingSink, PrepassState, Rule } from '../../rule
 import { toBatch } from '../binding/bind.js';
 import type { Binding, BindOptions } from '../binding/types.js';
 import { runPipelined, runRanges, runWhole } from '../parallel/threads.js';
-import { csvLayout, planRanges } from '../readers/byte-range.js';
-import { MemorySpill } from '../../rules/engine/spill.js';
+import { planRanges } from '../readers/byte-range.js';
 import type { Position, ReaderSettings } from '../parallel/protocol.js';
 import type { RawBatch } from '../readers/types.js';
 import type { InputSummary } from '../reports/terminal.js';
 import { FILE_SPILL } from '../spill/file-spill.js';
-import { bindFromFirstBatch, boundMap, inputSummary, openInput } from './input-steps.js';
+import { bindFromFirstBatch, boundMap, inputSummary, openInput, planSplit } from './input-steps.js';
 import { runPrepass } from './prepass.js';
 
 export interface RunInputsOptions extends ReaderSettings {
@@ -105,22 +104,10 @@ export async function runInputs(opts: RunInputsOptions): Promise<InputResult[]> 
  */
 export async function runSplit(pos: number, opts: RunInputsOptions, jobs: number): Promise<InputResult | null> {
   if (opts.observe) return null;
-  const reader = await openInput(opts.paths[pos], opts);
-  let binding: Binding;
-  let sample: Batch | undefined;
-  let layout;
-  try {
-    ({ binding, sampleBatch: sample } = await bindFromFirstBatch(reader, opts.bind, inputNumber(opts, pos)));
-    layout = await csvLayout(reader);
-  } finally {
-    await reader.close();
-  }
-  if (!layout) return null;
-  const probe = new InputRun(opts.rules, opts.selection, boundMap(binding), { push: () => undefined }, undefined, undefined, new MemorySpill());
-  if (!probe.splittable()) return null;
-  const ranges = await planRanges(layout, jobs);
-  if (!ranges) return null;
-  return runRanges(pos, opts, layout, ranges, binding, sample);
+  const plan = await planSplit(opts.paths[pos], opts, inputNumber(opts, pos));
+  const ranges = plan && (await planRanges(plan.layout, jobs));
+  if (!plan || !ranges) return null;
+  return runRanges(pos, opts, plan.layout, ranges, plan.binding, plan.sample);
 }
 
 /** One input, all in this thread. */

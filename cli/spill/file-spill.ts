@@ -126,6 +126,8 @@ class FileLog implements SpillLog {
   private readonly buffers: Float64Array[];
   private readonly filled: Int32Array;
   private readonly textBuffers: string[][];
+  /** Characters of text buffered per partition. */
+  private readonly textChars: Float64Array;
   private readonly capacity: number;
   /** Partitions of the run being appended to that have files. */
   private readonly written: Uint8Array;
@@ -147,6 +149,7 @@ class FileLog implements SpillLog {
     this.buffers = Array.from({ length: partitions }, () => new Float64Array(0));
     this.filled = new Int32Array(partitions);
     this.textBuffers = Array.from({ length: partitions }, () => []);
+    this.textChars = new Float64Array(partitions);
     this.written = new Uint8Array(partitions);
     this.folders.add(dir);
   }
@@ -162,8 +165,11 @@ class FileLog implements SpillLog {
     let at = this.filled[partition];
     for (let k = 0; k < this.width; k++) buf[at++] = record[k];
     this.filled[partition] = at;
-    this.textBuffers[partition].push(encodeText(text));
-    if (at === buf.length) this.flush(partition);
+    const t = encodeText(text);
+    this.textBuffers[partition].push(t);
+    // Texts count too: a log of few, long texts (held findings) must not keep them all in memory.
+    this.textChars[partition] += t.length;
+    if (at === buf.length || this.textChars[partition] >= BLOCK_BYTES) this.flush(partition);
   }
 
   /** The run appends go to, started after the last absorbed one when needed. */
@@ -186,6 +192,7 @@ class FileLog implements SpillLog {
     appendFileSync(fileOf(s, partition, 'txt'), this.textBuffers[partition].join('\n') + '\n');
     this.filled[partition] = 0;
     this.textBuffers[partition] = [];
+    this.textChars[partition] = 0;
     this.written[partition] = 1;
   }
 
@@ -208,6 +215,7 @@ class FileLog implements SpillLog {
       const out = { records: this.buffers[partition].slice(0, n), texts: this.textBuffers[partition].map(parseText) };
       this.filled[partition] = 0;
       this.textBuffers[partition] = [];
+      this.textChars[partition] = 0;
       this.buffers[partition] = new Float64Array(0);
       return out;
     }
@@ -240,6 +248,7 @@ class FileLog implements SpillLog {
     if (texts.length * this.width !== records.length) throw new Error('spill log texts and records disagree');
     this.filled[partition] = 0;
     this.textBuffers[partition] = [];
+    this.textChars[partition] = 0;
     this.buffers[partition] = new Float64Array(0);
     if (cur) this.written[partition] = 0;
     return { records, texts };

@@ -37,7 +37,7 @@ interface MbolHeld {
 
 /** What a run over a row range hands on (see RuleRun.save). */
 interface MbolState {
-  judge: OffsetJudgeState<MbolHeld>;
+  judge: OffsetJudgeState;
   input: number;
   column: string;
   flagged: number;
@@ -146,7 +146,7 @@ export const bolometricMagnitudeMismatch: Rule = {
     const judgeRows = new OffsetJudge<MbolHeld>(1.25, 2.5e-4, MIN_OFFSET_MAG, maxOffset, COLUMN_VERDICT_MIN_ROWS, {
       build: (h, off) => judge(h.base, h.row, off),
       move: (h, shift) => ({ base: movedFinding(h.base, shift), row: h.row }),
-    });
+    }, ctx.spill);
 
     return {
       check(batch, out, stats) {

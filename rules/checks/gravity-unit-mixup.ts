@@ -69,7 +69,7 @@ export const gravityUnitMixup: Rule = {
     },
   },
   start(ctx) {
-    const screen = new UnitMixupScreen(SPEC, ctx.params, ctx.bound.get('logg')?.unit);
+    const screen = new UnitMixupScreen(SPEC, ctx.params, ctx.bound.get('logg')?.unit, true, ctx.spill);
     const otherMass = new OtherCell(MASS_READINGS, ctx.bound.get('mass')?.unit);
     const otherRadius = new OtherCell(RADIUS_READINGS, ctx.bound.get('radius')?.unit);
     const e = new Expectations();

@@ -3,8 +3,16 @@ import type { Rule } from '../engine/types.js';
 import { StarClass, starClasses } from '../physics/classify.js';
 import { relationAt, type RelationVerdictInput } from '../physics/relation-choice.js';
 import { logLuminosityFromRadiusTeff } from '../physics/stellar.js';
-import { Expectations, LUMINOSITY_READINGS, MIXUP_PARAMS, UnitMixupScreen, meanErr, type ScreenLoop,
-  type ScreenState, type UnitMixupSpec } from './shared/unit-readings.js';
+import {
+  Expectations,
+  LUMINOSITY_READINGS,
+  MIXUP_PARAMS,
+  UnitMixupScreen,
+  meanErr,
+  screenRun,
+  type ScreenLoop,
+  type UnitMixupSpec,
+} from './shared/unit-readings.js';
 
 const ID = 'luminosity-unit-mixup';
 const LN10 = Math.LN10;
@@ -67,7 +75,7 @@ export const luminosityUnitMixup: Rule = {
   },
   start(ctx) {
     const relTol = ctx.params.relationToleranceDex as number;
-    const screen = new UnitMixupScreen(SPEC, ctx.params, ctx.bound.get('luminosity')?.unit ?? 'solLum', true);
+    const screen = new UnitMixupScreen(SPEC, ctx.params, ctx.bound.get('luminosity')?.unit ?? 'solLum', true, ctx.spill);
     const rel: RelationVerdictInput = { relation: '', logL: NaN, slope: NaN, scatter: NaN, brightAllowance: 0 };
     const e = new Expectations();
     // The rule's judging of one batch, with the screen it is given: a throwaway one over the
@@ -114,24 +122,6 @@ export const luminosityUnitMixup: Rule = {
         screen.report(batch, i, v, declaredLog, best, e, basisText);
       }
     };
-    screen.learn(ctx.sample, loop);
-    return {
-      check(batch, _out, stats) {
-        screen.learn(batch, loop);
-        loop(screen, batch, stats);
-      },
-      finish(out) {
-        screen.finish(out);
-      },
-      summary() {
-        return screen.summary();
-      },
-      save() {
-        return screen.save();
-      },
-      absorb(state, shift) {
-        screen.absorb(state as ScreenState, shift);
-      },
-    };
+    return screenRun(screen, loop, ctx.sample);
   },
 };

@@ -17,8 +17,8 @@ import {
   columnDexErr,
   dexErr,
   meanErr,
+  screenRun,
   type ScreenLoop,
-  type ScreenState,
   type UnitMixupSpec,
 } from './shared/unit-readings.js';
 
@@ -87,7 +87,7 @@ export const massUnitMixup: Rule = {
   },
   start(ctx) {
     const relTol = ctx.params.relationToleranceDex as number;
-    const screen = new UnitMixupScreen(SPEC, ctx.params, ctx.bound.get('mass')?.unit);
+    const screen = new UnitMixupScreen(SPEC, ctx.params, ctx.bound.get('mass')?.unit, true, ctx.spill);
     const otherRadius = new OtherCell(RADIUS_READINGS, ctx.bound.get('radius')?.unit);
     const otherLogg = new OtherCell(LOGG_READINGS, ctx.bound.get('logg')?.unit);
     const rel: RelationVerdictInput = { relation: '', logL: NaN, slope: NaN, scatter: NaN, brightAllowance: 0 };
@@ -151,24 +151,6 @@ export const massUnitMixup: Rule = {
         screen.report(batch, i, v, declaredLog, best, e, basisText);
       }
     };
-    screen.learn(ctx.sample, loop);
-    return {
-      check(batch, _out, stats) {
-        screen.learn(batch, loop);
-        loop(screen, batch, stats);
-      },
-      finish(out) {
-        screen.finish(out);
-      },
-      summary() {
-        return { ...screen.summary(), rowsAmbiguous: screen.ambiguousRows };
-      },
-      save() {
-        return screen.save();
-      },
-      absorb(state, shift) {
-        screen.absorb(state as ScreenState, shift);
-      },
-    };
+    return screenRun(screen, loop, ctx.sample, () => ({ ...screen.summary(), rowsAmbiguous: screen.ambiguousRows }));
   },
 };

@@ -28,7 +28,7 @@ const FACTOR_LOGS = FACTORS.map((f) => Math.log10(f.ratio));
 
 /** What a run over a row range hands on (see RuleRun.save). */
 interface RangeTotals {
-  deferred: DeferredState<Finding>;
+  deferred: DeferredState;
   input: number;
   distColumn: string;
   plxColumn: string;
@@ -109,7 +109,7 @@ export const parallaxDistanceMismatch: Rule = {
     const k = ctx.params.sigmas as number;
     const errorDex = ctx.params.errorDex as number;
     const withoutError = ctx.params.judgeWithoutError as boolean;
-    const deferred = new DeferredFindings<Finding>(DEFERRED_CAP, FINISHED);
+    const deferred = new DeferredFindings<Finding>(DEFERRED_CAP, FINISHED, ctx.spill);
     let input = 0;
     let distColumn = '';
     let plxColumn = '';

@@ -18,8 +18,8 @@ import {
   columnDexErr,
   dexErr,
   meanErr,
+  screenRun,
   type ScreenLoop,
-  type ScreenState,
   type UnitMixupSpec,
 } from './shared/unit-readings.js';
 
@@ -77,7 +77,7 @@ export const radiusUnitMixup: Rule = {
     },
   },
   start(ctx) {
-    const screen = new UnitMixupScreen(SPEC, ctx.params, ctx.bound.get('radius')?.unit);
+    const screen = new UnitMixupScreen(SPEC, ctx.params, ctx.bound.get('radius')?.unit, true, ctx.spill);
     const other = {
       lum: new OtherCell(LUMINOSITY_READINGS, ctx.bound.get('luminosity')?.unit),
       teff: new OtherCell(TEFF_READINGS, ctx.bound.get('teff')?.unit),
@@ -152,24 +152,6 @@ export const radiusUnitMixup: Rule = {
         screen.report(batch, i, v, declaredLog, best, e, basisText);
       }
     };
-    screen.learn(ctx.sample, loop);
-    return {
-      check(batch, _out, stats) {
-        screen.learn(batch, loop);
-        loop(screen, batch, stats);
-      },
-      finish(out) {
-        screen.finish(out);
-      },
-      summary() {
-        return { ...screen.summary(), rowsAmbiguous: screen.ambiguousRows };
-      },
-      save() {
-        return screen.save();
-      },
-      absorb(state, shift) {
-        screen.absorb(state as ScreenState, shift);
-      },
-    };
+    return screenRun(screen, loop, ctx.sample, () => ({ ...screen.summary(), rowsAmbiguous: screen.ambiguousRows }));
   },
 };

@@ -31,7 +31,7 @@ interface SbHeld {
 
 /** What a run over a row range hands on (see RuleRun.save). */
 interface SbState {
-  judge: OffsetJudgeState<SbHeld>;
+  judge: OffsetJudgeState;
   input: number;
   lumColumn: string;
   lumUnit: string;
@@ -146,7 +146,7 @@ export const stefanBoltzmannMismatch: Rule = {
     const judgeRows = new OffsetJudge<SbHeld>(0.5, 1e-4, MIN_OFFSET_DEX, maxOffset, COLUMN_VERDICT_MIN_ROWS, {
       build: (h, off) => judge(h.base, h.row, off, h.radiusColumn, h.teffColumn),
       move: (h, shift) => ({ ...h, base: movedFinding(h.base, shift) }),
-    });
+    }, ctx.spill);
 
     return {
       check(batch, out, stats) {

@@ -31,7 +31,7 @@ function onGrid(v: number, step: number): boolean {
 
 /** What a run over a row range hands on (see RuleRun.save). */
 interface RangeTotals {
-  deferred: DeferredState<Finding>;
+  deferred: DeferredState;
   input: number;
   column: string;
   judged: number;
@@ -90,7 +90,7 @@ export const surfaceGravityMismatch: Rule = {
     const k = ctx.params.sigmas as number;
     const tol = ctx.params.toleranceDex as number;
     const defaultErr = ctx.params.defaultErrorDex as number;
-    const deferred = new DeferredFindings<Finding>(DEFERRED_CAP, FINISHED);
+    const deferred = new DeferredFindings<Finding>(DEFERRED_CAP, FINISHED, ctx.spill);
     let input = 0;
     let column = '';
     let judged = 0;

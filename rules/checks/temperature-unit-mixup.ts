@@ -15,8 +15,8 @@ import {
   UnitMixupScreen,
   columnDexErr,
   dexErr,
+  screenRun,
   type ScreenLoop,
-  type ScreenState,
   type UnitMixupSpec,
 } from './shared/unit-readings.js';
 
@@ -72,7 +72,7 @@ export const temperatureUnitMixup: Rule = {
     },
   },
   start(ctx) {
-    const screen = new UnitMixupScreen(SPEC, ctx.params, ctx.bound.get('teff')?.unit);
+    const screen = new UnitMixupScreen(SPEC, ctx.params, ctx.bound.get('teff')?.unit, true, ctx.spill);
     const otherLum = new OtherCell(LUMINOSITY_READINGS, ctx.bound.get('luminosity')?.unit);
     const otherRadius = new OtherCell(RADIUS_READINGS, ctx.bound.get('radius')?.unit);
     const e = new Expectations();
@@ -121,24 +121,6 @@ export const temperatureUnitMixup: Rule = {
         screen.report(batch, i, v, declaredLog, best, e, basisText);
       }
     };
-    screen.learn(ctx.sample, loop);
-    return {
-      check(batch, _out, stats) {
-        screen.learn(batch, loop);
-        loop(screen, batch, stats);
-      },
-      finish(out) {
-        screen.finish(out);
-      },
-      summary() {
-        return { ...screen.summary(), rowsAmbiguous: screen.ambiguousRows };
-      },
-      save() {
-        return screen.save();
-      },
-      absorb(state, shift) {
-        screen.absorb(state as ScreenState, shift);
-      },
-    };
+    return screenRun(screen, loop, ctx.sample, () => ({ ...screen.summary(), rowsAmbiguous: screen.ambiguousRows }));
   },
 };

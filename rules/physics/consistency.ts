@@ -6,6 +6,8 @@
  */
 import { columnFinding } from '../engine/findings.js';
 import type { Finding, FindingSink, RowShift } from '../engine/types.js';
+import { HeldQueue, type HeldQueueState } from '../engine/held.js';
+import type { SpillStore } from '../engine/spill.js';
 
 /** A finite, non-negative uncertainty from an optional error array, else 0 (no error stated). */
 export function errAt(errs: Float64Array | null | undefined, i: number): number {
@@ -176,8 +178,8 @@ const CLOSURES: HeldKind<LaterFinding> = {
 export const DEFERRED_CAP = 20_000;
 
 /** DeferredFindings as plain data (see DeferredFindings.save). */
-export interface DeferredState<T> {
-  items: { tag: number; data: T }[];
+export interface DeferredState {
+  items: HeldQueueState;
   pushed: Map<number, number>;
   dropped: number;
 }
@@ -186,10 +188,12 @@ export interface DeferredState<T> {
  * Findings that can only be finished once the whole column is known (they depend on its offset,
  * or may be folded into one column finding). Each entry is the data of one row, never the batch,
  * turned into a finding by `kind` at the end; at most `cap` are held (the first in row order), the
- * rest are counted.
+ * rest are counted. A closure can be held only in memory, for a run that is never split; data is
+ * held in the spill store given (see HeldQueue), so memory does not grow with the rows.
  */
 export class DeferredFindings<T = LaterFinding> {
-  private items: { tag: number; data: T }[] = [];
+  private readonly items: HeldQueue<T> | null;
+  private closures: { tag: number; data: T }[] = [];
   /** Entries pushed per tag, including those beyond the cap. */
   readonly pushed = new Map<number, number>();
   dropped = 0;
@@ -197,15 +201,23 @@ export class DeferredFindings<T = LaterFinding> {
   constructor(
     private readonly cap = DEFERRED_CAP,
     private readonly kind: HeldKind<T> = CLOSURES as unknown as HeldKind<T>,
-  ) {}
+    spill?: SpillStore,
+  ) {
+    this.items = kind === (CLOSURES as unknown as HeldKind<T>) ? null : new HeldQueue<T>(cap, spill);
+  }
+
+  private get held(): number {
+    return this.items ? this.items.length : this.closures.length;
+  }
 
   push(tag: number, data: T): void {
     this.pushed.set(tag, (this.pushed.get(tag) ?? 0) + 1);
-    if (this.items.length >= this.cap) {
+    if (this.held >= this.cap) {
       this.dropped++;
       return;
     }
-    this.items.push({ tag, data });
+    if (this.items) this.items.push(data, tag);
+    else this.closures.push({ tag, data });
   }
 
   count(tag: number): number {
@@ -215,36 +227,36 @@ export class DeferredFindings<T = LaterFinding> {
   /** Builds the held findings against `offset` and pushes those that still stand; returns how many. */
   flush(out: FindingSink, offset: number, skipTag = -1): number {
     let n = 0;
-    for (const it of this.items) {
-      if (it.tag === skipTag) continue;
-      const f = this.kind.build(it.data, offset);
+    const one = (data: T, tag: number, shift: RowShift) => {
+      if (tag === skipTag) return;
+      const f = this.kind.build(shift.rows !== 0 || shift.lines !== 0 ? this.kind.move(data, shift) : data, offset);
       if (f) {
         out.push(f);
         n++;
       }
-    }
-    this.items = [];
+    };
+    if (this.items) this.items.drain(one);
+    else for (const it of this.closures) one(it.data, it.tag, NO_SHIFT);
+    this.closures = [];
     return n;
   }
 
-  save(): DeferredState<T> {
-    return { items: this.items.slice(), pushed: new Map(this.pushed), dropped: this.dropped };
+  save(): DeferredState {
+    if (!this.items) throw new Error('a held closure cannot be saved for another row range; hold data with a HeldKind');
+    return { items: this.items.save(), pushed: new Map(this.pushed), dropped: this.dropped };
   }
 
   /**
    * Takes in the entries held over the rows that follow: they fill the cap after this buffer's
    * own, so the buffer holds the first `cap` entries of the whole input as one pass would.
    */
-  absorb(s: DeferredState<T>, shift: RowShift): void {
+  absorb(s: DeferredState, shift: RowShift): void {
     for (const [tag, n] of s.pushed) this.pushed.set(tag, (this.pushed.get(tag) ?? 0) + n);
-    const moves = shift.rows !== 0 || shift.lines !== 0;
-    for (const it of s.items) {
-      if (this.items.length >= this.cap) this.dropped++;
-      else this.items.push({ tag: it.tag, data: moves ? this.kind.move(it.data, shift) : it.data });
-    }
-    this.dropped += s.dropped;
+    this.dropped += this.items!.absorb(s.items, shift) + s.dropped;
   }
 }
+
+const NO_SHIFT: RowShift = { rows: 0, lines: 0 };
 
 /**
  * Row verdicts against a relation that may be shifted by a whole-column zero-point offset, known
@@ -264,9 +276,10 @@ export class OffsetJudge<T> {
     private readonly maxOffset: number,
     private readonly minRows: number,
     private readonly kind: HeldKind<T>,
+    spill?: SpillStore,
   ) {
     this.tally = new ResidualTally(halfRange, binWidth);
-    this.held = new DeferredFindings(DEFERRED_CAP, kind);
+    this.held = new DeferredFindings(DEFERRED_CAP, kind, spill);
   }
 
   /** Counts the residual; true when the row needs a finding built (it fails for some allowed offset). */
@@ -292,19 +305,19 @@ export class OffsetJudge<T> {
   }
 
   /** The tally and the held rows of a row range, as data; the offset is only measured at the end. */
-  save(): OffsetJudgeState<T> {
+  save(): OffsetJudgeState {
     return { tally: this.tally.save(), held: this.held.save() };
   }
 
-  absorb(s: OffsetJudgeState<T>, shift: RowShift): void {
+  absorb(s: OffsetJudgeState, shift: RowShift): void {
     this.tally.absorb(s.tally);
     this.held.absorb(s.held, shift);
   }
 }
 
-export interface OffsetJudgeState<T> {
+export interface OffsetJudgeState {
   tally: TallyState;
-  held: DeferredState<T>;
+  held: DeferredState;
 }
 
 /** The column note for rows a full buffer could not list, or null when none were left out. */

@@ -13,7 +13,7 @@ import type { Finding } from '../../rules/engine/types.js';
 import { runInputs, runSplit, type InputResult, type RunInputsOptions } from '../../cli/commands/run-inputs.js';
 import { csvLayout, planRanges, shardRange } from '../../cli/readers/byte-range.js';
 import { openCatalog } from '../../cli/readers/open.js';
-import { REPO, cli, tempDir } from '../helpers/cli.js';
+import { REPO, cli, comparableReport, tempDir } from '../helpers/cli.js';
 import { draft07Validator } from '../helpers/schema.js';
 
 const DEMO = join(REPO, 'sample-catalogs/thistlewood-dr1.csv');
@@ -118,13 +118,6 @@ describe('byte ranges of one CSV file', () => {
   }
 });
 
-/** Whatever describes the run rather than the catalog: the time and the cost. */
-function comparable(path: string): unknown {
-  const doc = JSON.parse(readFileSync(path, 'utf8')) as Record<string, unknown> & { summary: Record<string, unknown> };
-  delete doc.createdAt;
-  delete doc.summary.cost;
-  return doc;
-}
 
 describe('shards of one CSV file', () => {
   it('merge 1, 3 and 7 byte-range shards into the report of one run', () => {
@@ -132,7 +125,7 @@ describe('shards of one CSV file', () => {
       const whole = join(dir, 'whole.json');
       const one = cli(['check', path, '--report', whole, '--quiet', '--jobs', '1']);
       expect(one.stderr).toBe('');
-      const expected = comparable(whole);
+      const expected = comparableReport(whole);
       for (const n of [1, 3, 7]) {
         const parts: string[] = [];
         for (let k = 1; k <= n; k++) {
@@ -146,7 +139,7 @@ describe('shards of one CSV file', () => {
         const m = cli(['merge', ...parts.reverse(), '--report', merged, '--quiet']);
         expect(m.stderr).toBe('');
         expect(m.code).toBe(one.code);
-        expect(comparable(merged)).toEqual(expected);
+        expect(comparableReport(merged)).toEqual(expected);
         for (const p of [merged, parts[0]]) expect(validate(JSON.parse(readFileSync(p, 'utf8'))), JSON.stringify(validate.errors?.slice(0, 2))).toBe(true);
       }
     }

@@ -5,7 +5,7 @@
 import { readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { beforeAll, describe, expect, it } from 'vitest';
-import { REPO, cli, tempDir } from '../helpers/cli.js';
+import { REPO, cli, comparableReport, tempDir } from '../helpers/cli.js';
 import { draft07Validator } from '../helpers/schema.js';
 
 const validate = draft07Validator(JSON.parse(readFileSync(join(REPO, 'cli/reports/findings-report.schema.json'), 'utf8')) as object);
@@ -14,13 +14,6 @@ const DEMO = join(REPO, 'sample-catalogs/thistlewood-dr1');
 let dir = '';
 let inputs: string[] = [];
 
-/** Whatever describes the run rather than the catalog: the time and the cost. */
-function comparable(path: string): unknown {
-  const doc = JSON.parse(readFileSync(path, 'utf8')) as Record<string, unknown> & { summary: Record<string, unknown> };
-  delete doc.createdAt;
-  delete doc.summary.cost;
-  return doc;
-}
 
 beforeAll(() => {
   dir = tempDir();
@@ -41,7 +34,7 @@ describe('sharded runs', () => {
     const whole = join(dir, 'whole.json');
     const one = cli(['check', ...inputs, '--report', whole, '--quiet']);
     expect(one.code).toBe(1);
-    const expected = comparable(whole);
+    const expected = comparableReport(whole);
     for (const n of [1, 3, 7]) {
       const parts: string[] = [];
       for (let k = 1; k <= n; k++) {
@@ -55,7 +48,7 @@ describe('sharded runs', () => {
       const m = cli(['merge', ...parts.reverse(), '--report', merged, '--quiet']);
       expect(m.stderr).toBe('');
       expect(m.code).toBe(one.code);
-      expect(comparable(merged)).toEqual(expected);
+      expect(comparableReport(merged)).toEqual(expected);
       // Shard reports and the merged report are reports like any other.
       for (const p of [merged, parts[0]]) expect(validate(JSON.parse(readFileSync(p, 'utf8'))), JSON.stringify(validate.errors?.slice(0, 2))).toBe(true);
     }

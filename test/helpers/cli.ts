@@ -48,3 +48,11 @@ export interface Report {
   rules: { id: string; perInput: { status: string; checked: number; skipped: Record<string, number>; details: Record<string, unknown> }[] }[];
   summary: { findings: Record<string, number>; failed: boolean; rows: number };
 }
+
+/** A report without what describes the run rather than the catalog (the time and the cost), to compare runs. */
+export function comparableReport(path: string): unknown {
+  const doc = JSON.parse(readFileSync(path, 'utf8')) as Record<string, unknown> & { summary: Record<string, unknown> };
+  delete doc.createdAt;
+  delete doc.summary.cost;
+  return doc;
+}

@@ -236,7 +236,7 @@ export class RepeatLog {
   private readonly firstRows: FirstByRow;
 
   constructor(
-    private readonly cap: number,
+    cap: number,
     /** Repeats are listed while at most this fraction of judged rows (or at most 10 rows) repeat. */
     private readonly listFraction: number,
   ) {

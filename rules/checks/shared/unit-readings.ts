@@ -4,12 +4,14 @@
  * keeps its own loop over the batch and its own expectations (Stefan-Boltzmann, gravity, a
  * mass-luminosity relation); this module never knows which quantity it judges beyond the spec.
  */
+import { HeldQueue, type HeldQueueState } from '../../engine/held.js';
+import type { SpillStore } from '../../engine/spill.js';
 import { COLUMN_VERDICT_MIN_ROWS, columnFinding, fmt, round6, rowFinding } from '../../engine/findings.js';
 import type { NumericQuantity } from '../../engine/quantities.js';
 import { QUANTITY_INFO } from '../../engine/quantities.js';
 import { isUnusable, markUnusable } from '../../engine/usable.js';
 import { shiftFinding } from '../../engine/runner.js';
-import { RuleStats, type Batch, type Finding, type FindingSink, type ParamSpec, type ParamValues, type QuantityColumn, type RowShift } from '../../engine/types.js';
+import { RuleStats, type Batch, type Finding, type FindingSink, type ParamSpec, type ParamValues, type QuantityColumn, type RowShift, type RuleRun } from '../../engine/types.js';
 import { L_SUN_W } from '../../physics/constants.js';
 import { log10GaussianRatio, normalUpperTail, poissonUpperTail } from '../../physics/statistics.js';
 import { LINEAR_FACTORS } from '../../physics/units.js';
@@ -278,7 +280,7 @@ export interface ScreenState {
   firedByUnit: number[];
   ambiguousRows: number;
   leftToShift: number;
-  kept: Finding[];
+  kept: HeldQueueState;
 }
 
 /** A screen rule's own judging of one batch, done by the given screen: what its `check` does. */
@@ -324,7 +326,8 @@ export class UnitMixupScreen {
   /** Expected number of rows that fire by chance if every declared value were right and the residuals Gaussian. */
   private chance = 0;
   private readonly firedByUnit: number[];
-  private readonly buffer: Finding[] = [];
+  /** The listed row findings, up to ROW_BUFFER_CAP, held in the spill store until the end of the input. */
+  private readonly buffer: HeldQueue<Finding>;
   private input = 0;
   private column = '';
   /** Whether `input` and `column` are known: a run that only absorbs ranges sees no batch. */
@@ -345,7 +348,9 @@ export class UnitMixupScreen {
     private readonly params: ParamValues,
     declaredUnit: string | undefined,
     private readonly skipFlagged = true,
+    spill?: SpillStore,
   ) {
+    this.buffer = new HeldQueue<Finding>(ROW_BUFFER_CAP, spill);
     this.minLog10Ratio = Math.log10(params.minLikelihoodRatio as number);
     this.acceptSigma = params.acceptSigma as number;
     this.columnFraction = params.columnFraction as number;
@@ -440,7 +445,7 @@ export class UnitMixupScreen {
       firedByUnit: this.firedByUnit.slice(),
       ambiguousRows: this.ambiguousRows,
       leftToShift: this.leftToShift,
-      kept: this.buffer,
+      kept: this.buffer.save(),
     };
   }
 
@@ -465,10 +470,7 @@ export class UnitMixupScreen {
     }
     this.ambiguousRows += s.ambiguousRows;
     this.leftToShift += s.leftToShift;
-    for (const f of s.kept) {
-      if (this.buffer.length >= ROW_BUFFER_CAP) break;
-      this.buffer.push(shiftFinding(f, shift));
-    }
+    this.buffer.absorb(s.kept, shift);
   }
 
   private plausible(k: number, lg: number): boolean {
@@ -627,7 +629,7 @@ export class UnitMixupScreen {
     this.fired++;
     this.firedByUnit[k]++;
     markUnusable(batch, this.spec.quantity, i);
-    return !this.probing && this.buffer.length < ROW_BUFFER_CAP;
+    return !this.probing && !this.buffer.full;
   }
 
   /**
@@ -706,18 +708,20 @@ export class UnitMixupScreen {
           suggestion: { column, value: 1, unit, text: `declare the column's unit as ${unit} (e.g. --unit ${column}=${unit})` },
         }),
       );
+      this.buffer.close();
       return;
     }
-    for (const f of this.buffer) out.push(f);
-    if (fired > this.buffer.length) {
+    const listed = this.buffer.length;
+    this.buffer.drain((f, _tag, shift) => out.push(shift.rows !== 0 || shift.lines !== 0 ? shiftFinding(f, shift) : f));
+    if (fired > listed) {
       out.push(
         columnFinding({
           input,
           rule: spec.id,
           severity: 'error',
           columns: [column],
-          values: { rowsInOtherUnit: fired, rowsListed: this.buffer.length },
-          message: `${fired} rows of ${column} look like another unit; the first ${this.buffer.length} are listed, ${fired - this.buffer.length} more are not`,
+          values: { rowsInOtherUnit: fired, rowsListed: listed },
+          message: `${fired} rows of ${column} look like another unit; the first ${listed} are listed, ${fired - listed} more are not`,
         }),
       );
     }
@@ -783,4 +787,22 @@ export class OtherCell {
     }
     return false;
   }
+}
+
+/**
+ * The run of a screen rule: it learns from the input's sample (see UnitMixupScreen.learn), judges
+ * each batch with `loop`, and finishes, sums up, saves and absorbs through the screen.
+ */
+export function screenRun(screen: UnitMixupScreen, loop: ScreenLoop, sample: Batch | undefined, summary: () => Record<string, unknown> = () => screen.summary()): RuleRun {
+  screen.learn(sample, loop);
+  return {
+    check(batch, _out, stats) {
+      screen.learn(batch, loop);
+      loop(screen, batch, stats);
+    },
+    finish: (out) => screen.finish(out),
+    summary,
+    save: () => screen.save(),
+    absorb: (state, shift) => screen.absorb(state as ScreenState, shift),
+  };
 }
