@@ -10,7 +10,7 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import { ALL_RULES } from '../../rules/checks/index.js';
 import { selectRules } from '../../rules/engine/runner.js';
 import type { Finding } from '../../rules/engine/types.js';
-import { runInputs, runSplit, type InputResult, type RunInputsOptions } from '../../cli/commands/run-inputs.js';
+import { RANGES_MIN_JOBS, runInputs, runSplit, type InputResult, type RunInputsOptions } from '../../cli/commands/run-inputs.js';
 import { csvLayout, planRanges, shardRange } from '../../cli/readers/byte-range.js';
 import { openCatalog } from '../../cli/readers/open.js';
 import { REPO, cli, comparableReport, tempDir } from '../helpers/cli.js';
@@ -112,7 +112,8 @@ describe('byte ranges of one CSV file', () => {
         expect(many.findings).toEqual(one.findings);
         expect(many.results).toEqual(one.results);
       }
-      // And through the command's own choice of the way to use threads.
+      // And through the command's own choice (ranges from RANGES_MIN_JOBS threads, else the pipeline).
+      expect((await check(path, RANGES_MIN_JOBS)).findings).toEqual(one.findings);
       expect((await check(path, 2)).findings).toEqual(one.findings);
     }, 120_000);
   }
