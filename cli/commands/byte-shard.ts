@@ -13,7 +13,8 @@ import { InputRun, type InputRunState } from '../../rules/engine/runner.js';
 import { ConfigError } from '../../rules/engine/params.js';
 import { toBatch } from '../binding/to-batch.js';
 import type { Binding } from '../binding/types.js';
-import type { Batch } from '../../rules/engine/types.js';
+import type { Batch, PrepassState } from '../../rules/engine/types.js';
+import { runPrepass } from './prepass.js';
 import { openCsvRange, shardRange, type ByteRange, type CsvLayout, type RangeCounts } from '../readers/byte-range.js';
 import type { ReaderStats } from '../readers/types.js';
 import { FileSpill } from '../spill/file-spill.js';
@@ -69,12 +70,16 @@ export async function runByteShard(opts: RunInputsOptions, plan: ByteShardPlan, 
   rmSync(stateDir, { recursive: true, force: true });
   mkdirSync(stateDir, { recursive: true });
   const spill = new FileSpill({ root: stateDir });
+  // A rule that judges against the catalog's own fit (--relation catalog) needs it over the whole
+  // file, not the range: every shard makes the first pass over all of it, and keeps the result
+  // for the merge, which finishes the input with the same fit.
+  const prepass = await runPrepass({ ...opts, paths: [opts.paths[0]] });
   const { reader, counts } = await openCsvRange(plan.layout, plan.bytes, { batchSize: opts.batchSize });
   const index = opts.inputs?.[0] ?? 0;
   const tally = new RowTally(opts.sink);
   try {
     selectBound(reader, plan.binding);
-    const run = new InputRun(opts.rules, opts.selection, boundMap(plan.binding), tally, undefined, undefined, spill, plan.sample);
+    const run = new InputRun(opts.rules, opts.selection, boundMap(plan.binding), tally, undefined, prepass, spill, plan.sample);
     let rows = 0;
     for await (const raw of reader.batches()) {
       const batch = toBatch(raw, plan.binding, index);
@@ -84,7 +89,8 @@ export async function runByteShard(opts: RunInputsOptions, plan: ByteShardPlan, 
       opts.progress?.(opts.paths[0], rows, null);
     }
     const state = run.saveState();
-    writeFileSync(join(stateDir, STATE_FILE), serialize({ stats: { ...reader.stats }, counts, state: relativeHandles(state, stateDir) }));
+    const saved: ShardState = { stats: { ...reader.stats }, counts, state: relativeHandles(state, stateDir), prepass: prepass ? [...prepass] : null };
+    writeFileSync(join(stateDir, STATE_FILE), serialize(saved));
     const range: ShardRange = {
       start: plan.bytes.start,
       end: plan.bytes.end,
@@ -109,6 +115,8 @@ export interface ShardState {
   stats: ReaderStats;
   counts: RangeCounts;
   state: InputRunState;
+  /** The first-pass states over the whole file, by rule id, when a rule asked for one. */
+  prepass: [string, PrepassState][] | null;
 }
 
 /** A shard's saved state, from the folder its report names. */

@@ -275,18 +275,21 @@ async function mergeRanges(paths: string[], tails: ShardTail[], byIndex: Map<num
     if (finding.row !== null) rowsWithFindings.add(finding.row);
   };
   try {
+    // Every shard made the same first pass over the whole file (--relation catalog), if any.
+    const firstState = readShardState(paths[order[0]], ranges[0]);
+    const prepass = firstState.prepass ? new Map(firstState.prepass) : undefined;
     const final = new InputRun(selectRules(ALL_RULES, selection), selection, bound, {
       push: (f) => {
         const fp = fingerprint(f, name);
         emit(f, fp, accepted.match(fp));
       },
-    }, undefined, undefined, new FileSpill({ keepAbsorbed: true }));
+    }, undefined, prepass, new FileSpill({ keepAbsorbed: true }));
     // Shard by shard: absorb its rules' states, then hand on its findings, renumbered, through
     // the rules' filters (a rule with a cap may drop some a later range listed).
     const ends = [];
     for (let j = 0; j < count; j++) {
       const k = order[j];
-      const saved = readShardState(paths[k], ranges[j]);
+      const saved = j === 0 ? firstState : readShardState(paths[k], ranges[j]);
       final.absorbState(saved.state, shifts[j]);
       ends.push({ stats: saved.stats, counts: saved.counts, notes: tails[k].inputs[0]?.notes ?? [] });
       const stored = new Map<Finding, { fp: string; ok: boolean }>();

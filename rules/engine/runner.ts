@@ -293,10 +293,7 @@ export class InputRun {
    * rows checked and skipped and findings so far; `details` waits for the run that finishes.
    */
   reportsSoFar(): RuleReport[] {
-    for (const a of this.active) {
-      const r = this.account(a, false);
-      r.details = {};
-    }
+    for (const a of this.active) this.account(a, false);
     for (const r of this.reports.values()) {
       if (r.status === 'skipped') r.skipped = { [r.reason ?? 'not run']: this.rows };
     }

@@ -146,6 +146,20 @@ describe('shards of one CSV file', () => {
     }
   }, 240_000);
 
+  it('fit the catalog relation over the whole file in every shard (--relation catalog), as one run does', () => {
+    const whole = join(dir, 'whole-catalog.json');
+    const one = cli(['check', DEMO, '--relation', 'catalog', '--report', whole, '--quiet']);
+    expect(one.stderr).toBe('');
+    const parts = [1, 2, 3].map((k) => {
+      const p = join(dir, `cat-${k}.json`);
+      expect(cli(['check', DEMO, '--relation', 'catalog', '--shard', `${k}/3`, '--report', p, '--quiet']).stderr).toBe('');
+      return p;
+    });
+    const merged = join(dir, 'cat-merged.json');
+    expect(cli(['merge', ...parts, '--report', merged, '--quiet']).stderr).toBe('');
+    expect(comparableReport(merged)).toEqual(comparableReport(whole));
+  }, 120_000);
+
   it('stops a shard whose range would end inside a quoted field, with one line and no report', () => {
     const lines = readFileSync(DEMO, 'utf8').split('\n');
     const header = lines.findIndex((l) => !l.startsWith('#'));
