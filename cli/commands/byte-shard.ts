@@ -14,6 +14,7 @@ import { ConfigError } from '../../rules/engine/params.js';
 import { toBatch } from '../binding/to-batch.js';
 import type { Binding } from '../binding/types.js';
 import type { Batch, PrepassState } from '../../rules/engine/types.js';
+import { spillHandlesIn, type FileSpillHandle } from '../../rules/engine/spill.js';
 import { runPrepass } from './prepass.js';
 import { openCsvRange, shardRange, type ByteRange, type CsvLayout, type RangeCounts } from '../readers/byte-range.js';
 import type { ReaderStats } from '../readers/types.js';
@@ -26,7 +27,6 @@ export interface ShardRange {
   start: number;
   end: number;
   rows: number;
-  newlines: number;
   blankLines: number;
   /** Line of the first blank line within the range, 0 for none. */
   firstBlankLine: number;
@@ -89,13 +89,13 @@ export async function runByteShard(opts: RunInputsOptions, plan: ByteShardPlan, 
       opts.progress?.(opts.paths[0], rows, null);
     }
     const state = run.saveState();
-    const saved: ShardState = { stats: { ...reader.stats }, counts, state: relativeHandles(state, stateDir), prepass: prepass ? [...prepass] : null };
+    moveFolders(state, (dir) => relative(stateDir, dir));
+    const saved: ShardState = { stats: { ...reader.stats }, counts, state, prepass: prepass ? [...prepass] : null };
     writeFileSync(join(stateDir, STATE_FILE), serialize(saved));
     const range: ShardRange = {
       start: plan.bytes.start,
       end: plan.bytes.end,
       rows: reader.stats.rows,
-      newlines: counts.newlines,
       blankLines: counts.blanks.count,
       firstBlankLine: counts.blanks.firstLine,
       state: relative(resolve(report, '..'), stateDir) || '.',
@@ -134,30 +134,19 @@ export function readShardState(report: string, range: ShardRange): ShardState {
   } catch {
     throw new ConfigError(`${join(dir, STATE_FILE)}: not a shard state this version of Node can read (merge with the Node that ran the shards)`);
   }
-  return { ...saved, state: absoluteHandles(saved.state, dir) };
+  moveFolders(saved.state, (d) => (isAbsolute(d) ? d : resolve(dir, d)));
+  return saved;
 }
 
 /**
  * File spill handles name their folders; in a state file they are written relative to the state
  * folder, so the shard outputs may be moved (or gathered from other machines) before the merge.
+ * Rewrites every folder a state's handles name (nested runs included), in place.
  */
-function relativeHandles<T>(state: T, root: string): T {
-  return mapHandles(state, (dir) => relative(root, dir));
-}
-
-function absoluteHandles<T>(state: T, root: string): T {
-  return mapHandles(state, (dir) => (isAbsolute(dir) ? dir : resolve(root, dir)));
-}
-
-function mapHandles<T>(value: T, f: (dir: string) => string): T {
-  if (Array.isArray(value)) return value.map((v) => mapHandles(v, f)) as T;
-  if (value instanceof Map) return new Map([...value].map(([k, v]) => [k, mapHandles(v, f)])) as T;
-  if (value && typeof value === 'object' && !ArrayBuffer.isView(value)) {
-    const o = value as Record<string, unknown>;
-    const out: Record<string, unknown> = {};
-    for (const [k, v] of Object.entries(o)) out[k] = mapHandles(v, f);
-    if (o.spillHandle === 'files' && typeof o.dir === 'string') out.dir = f(o.dir);
-    return out as T;
-  }
-  return value;
+function moveFolders(state: unknown, f: (dir: string) => string): void {
+  const walk = (h: FileSpillHandle) => {
+    h.dir = f(h.dir);
+    for (const s of h.segments) if (typeof s !== 'string') walk(s);
+  };
+  for (const h of spillHandlesIn(state)) if (h.spillHandle === 'files') walk(h);
 }

@@ -292,21 +292,15 @@ async function mergeRanges(paths: string[], tails: ShardTail[], byIndex: Map<num
       const saved = j === 0 ? firstState : readShardState(paths[k], ranges[j]);
       final.absorbState(saved.state, shifts[j]);
       ends.push({ stats: saved.stats, counts: saved.counts, notes: tails[k].inputs[0]?.notes ?? [] });
-      const stored = new Map<Finding, { fp: string; ok: boolean }>();
+      // A stored finding keeps its fingerprint and accepted mark on the way through the filters.
       const admit = final.admitting({
         push: (f) => {
-          const s = stored.get(f)!;
-          stored.delete(f);
-          emit(f, s.fp, s.ok);
+          const { fingerprint: fp, accepted: ok, ...finding } = f as StoredFinding;
+          emit(finding, fp, ok);
         },
       });
       const reader = new ShardReader(paths[k]);
-      for (let f = await reader.take(); f !== null; f = await reader.take()) {
-        const { fingerprint: fp, accepted: ok, ...finding } = f;
-        const moved = shiftFinding(finding, shifts[j]);
-        stored.set(moved, { fp, ok });
-        admit.push(moved);
-      }
+      for (let f = await reader.take(); f !== null; f = await reader.take()) admit.push(shiftFinding(f, shifts[j]));
       admit.end();
     }
     const reports = final.finish();

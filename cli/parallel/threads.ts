@@ -18,8 +18,8 @@ import { BindingError, type Binding } from '../binding/types.js';
 import { boundMap, inputSummary } from '../commands/input-steps.js';
 import { RowTally, inputNumber, type InputResult, type RunInputsOptions } from '../commands/run-inputs.js';
 import { InputError } from '../readers/types.js';
-import { FILE_SPILL } from '../spill/file-spill.js';
-import type { SpillLog } from '../../rules/engine/spill.js';
+import { FILE_SPILL, discardHandle } from '../spill/file-spill.js';
+import { spillHandlesIn, type SpillLog } from '../../rules/engine/spill.js';
 import type { WorkerMessage, WorkerTask } from './protocol.js';
 
 /**
@@ -291,6 +291,8 @@ export function runRanges(pos: number, opts: RunInputsOptions, layout: CsvLayout
       if (settled) return;
       settled = true;
       for (const w of workers) void w.terminate();
+      // The spill files of ranges that ended but were not absorbed belong to nobody now.
+      for (let k = current; k < n; k++) if (ends[k]) for (const h of spillHandlesIn(ends[k]!.state)) discardHandle(h);
       reject(e);
     };
     /** Moves on past every range that has ended, handing on the next one's held findings. */

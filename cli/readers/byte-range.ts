@@ -42,10 +42,8 @@ export interface CsvLayout {
   delimiter: string;
 }
 
-/** What a range's reader counted, for the shifts of the ranges after it. */
+/** What a range's reader counted that a whole read reports once: the blank lines inside the data. */
 export interface RangeCounts {
-  /** Newlines in the range's own bytes. */
-  newlines: number;
   blanks: BlankLines;
 }
 
@@ -136,7 +134,13 @@ export async function planRanges(layout: CsvLayout, parts: number): Promise<Byte
         const target = Math.max(targets[cuts.length], cuts.length ? cuts[cuts.length - 1] : 0);
         if (target >= pos + bytesRead) break;
         let nl = b.indexOf(NL, Math.max(from, target - pos));
-        while (nl !== -1 && (quotes + countByte(b.subarray(0, nl), QUOTE)) % 2 === 1) nl = b.indexOf(NL, nl + 1);
+        // Quotes up to each candidate line end, counted on from the last one tried.
+        let open = nl === -1 ? 0 : quotes + countByte(b.subarray(0, nl), QUOTE);
+        while (nl !== -1 && open % 2 === 1) {
+          const next = b.indexOf(NL, nl + 1);
+          if (next !== -1) open += countByte(b.subarray(nl, next), QUOTE);
+          nl = next;
+        }
         if (nl === -1) break;
         cuts.push(pos + nl + 1);
         linesAt.push(newlines + countByte(b.subarray(0, nl + 1), NL));
@@ -205,10 +209,10 @@ async function newlinesIn(h: FileHandle, from: number, to: number): Promise<numb
 }
 
 /**
- * The bytes a range reader parses: the header lines, then the range. Counts the range's newlines
- * and quotes, and refuses lone CR line ends, as it goes.
+ * The bytes a range reader parses: the header lines, then the range. Counts the range's quotes,
+ * and refuses lone CR line ends, as it goes.
  */
-function rangeBytes(layout: CsvLayout, range: ByteRange, counts: RangeCounts, chunkBytes: number): Readable {
+function rangeBytes(layout: CsvLayout, range: ByteRange, chunkBytes: number): Readable {
   const name = displayName(layout.path);
   async function* generate(): AsyncGenerator<string> {
     const decoder = new StringDecoder('utf8');
@@ -224,7 +228,6 @@ function rangeBytes(layout: CsvLayout, range: ByteRange, counts: RangeCounts, ch
         const { bytesRead } = await h.read(buf, 0, Math.min(buf.length, range.end - pos), pos);
         if (bytesRead <= 0) break;
         const b = buf.subarray(0, bytesRead);
-        counts.newlines += countByte(b, NL);
         quotes += countByte(b, QUOTE);
         if ((prev === CR && b[0] !== NL) || hasLoneCr(b, NL)) {
           throw new InputError(`${name}: a lone CR line end near byte ${pos}; a file with CR-only line ends cannot be read in byte ranges (shard it by file)`, layout.path, `byte ${pos}`);
@@ -257,13 +260,13 @@ export interface RangeReader {
 
 /** A CSV reader over one byte range: rows numbered from the range's start, lines as in the file. */
 export async function openCsvRange(layout: CsvLayout, range: ByteRange, options: CsvOptions = {}): Promise<RangeReader> {
-  const counts: RangeCounts = { newlines: 0, blanks: { count: 0, firstLine: 0 } };
+  const counts: RangeCounts = { blanks: { count: 0, firstLine: 0 } };
   const reader = (await openCsv(layout.path, {
     ...options,
     delimiter: layout.delimiter,
     quietBlankLines: true,
     linesSkipped: range.linesBefore,
-    textStream: rangeBytes(layout, range, counts, options.readChunkBytes ?? 1 << 20),
+    textStream: rangeBytes(layout, range, options.readChunkBytes ?? 1 << 20),
   })) as CsvReader;
   const batches = reader.batches.bind(reader);
   // The blank-line count is final only once every batch has been read.

@@ -206,18 +206,10 @@ export class DeferredFindings<T = LaterFinding> {
     this.items = kind === (CLOSURES as unknown as HeldKind<T>) ? null : new HeldQueue<T>(cap, spill);
   }
 
-  private get held(): number {
-    return this.items ? this.items.length : this.closures.length;
-  }
-
   push(tag: number, data: T): void {
     this.pushed.set(tag, (this.pushed.get(tag) ?? 0) + 1);
-    if (this.held >= this.cap) {
-      this.dropped++;
-      return;
-    }
-    if (this.items) this.items.push(data, tag);
-    else this.closures.push({ tag, data });
+    const held = this.items ? this.items.push(data, tag) : this.closures.length < this.cap && this.closures.push({ tag, data }) > 0;
+    if (!held) this.dropped++;
   }
 
   count(tag: number): number {

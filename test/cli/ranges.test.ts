@@ -13,7 +13,7 @@ import type { Finding } from '../../rules/engine/types.js';
 import { RANGES_MIN_JOBS, runInputs, runSplit, type InputResult, type RunInputsOptions } from '../../cli/commands/run-inputs.js';
 import { csvLayout, planRanges, shardRange } from '../../cli/readers/byte-range.js';
 import { openCatalog } from '../../cli/readers/open.js';
-import { REPO, cli, comparableReport, tempDir } from '../helpers/cli.js';
+import { REPO, checkInShards, cli, comparableReport, tempDir } from '../helpers/cli.js';
 import { draft07Validator } from '../helpers/schema.js';
 
 const DEMO = join(REPO, 'sample-catalogs/thistlewood-dr1.csv');
@@ -128,14 +128,8 @@ describe('shards of one CSV file', () => {
       expect(one.stderr).toBe('');
       const expected = comparableReport(whole);
       for (const n of [1, 3, 7]) {
-        const parts: string[] = [];
-        for (let k = 1; k <= n; k++) {
-          const p = join(dir, `r${n}-${k}.json`);
-          const r = cli(['check', path, '--shard', `${k}/${n}`, '--report', p, '--quiet', '--jobs', '1']);
-          expect(r.stderr).toBe('');
-          if (n > 1) expect(existsSync(`${p}.state`)).toBe(true);
-          parts.push(p);
-        }
+        const parts = checkInShards([path, '--jobs', '1'], n, join(dir, `r${n}`));
+        if (n > 1) for (const p of parts) expect(existsSync(`${p}.state`)).toBe(true);
         const merged = join(dir, `rmerged-${n}.json`);
         const m = cli(['merge', ...parts.reverse(), '--report', merged, '--quiet']);
         expect(m.stderr).toBe('');
@@ -150,11 +144,7 @@ describe('shards of one CSV file', () => {
     const whole = join(dir, 'whole-catalog.json');
     const one = cli(['check', DEMO, '--relation', 'catalog', '--report', whole, '--quiet']);
     expect(one.stderr).toBe('');
-    const parts = [1, 2, 3].map((k) => {
-      const p = join(dir, `cat-${k}.json`);
-      expect(cli(['check', DEMO, '--relation', 'catalog', '--shard', `${k}/3`, '--report', p, '--quiet']).stderr).toBe('');
-      return p;
-    });
+    const parts = checkInShards([DEMO, '--relation', 'catalog'], 3, join(dir, 'cat'));
     const merged = join(dir, 'cat-merged.json');
     expect(cli(['merge', ...parts, '--report', merged, '--quiet']).stderr).toBe('');
     expect(comparableReport(merged)).toEqual(comparableReport(whole));

@@ -5,7 +5,7 @@
 import { readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { beforeAll, describe, expect, it } from 'vitest';
-import { REPO, cli, comparableReport, tempDir } from '../helpers/cli.js';
+import { REPO, checkInShards, cli, comparableReport, tempDir } from '../helpers/cli.js';
 import { draft07Validator } from '../helpers/schema.js';
 
 const validate = draft07Validator(JSON.parse(readFileSync(join(REPO, 'cli/reports/findings-report.schema.json'), 'utf8')) as object);
@@ -36,13 +36,7 @@ describe('sharded runs', () => {
     expect(one.code).toBe(1);
     const expected = comparableReport(whole);
     for (const n of [1, 3, 7]) {
-      const parts: string[] = [];
-      for (let k = 1; k <= n; k++) {
-        const p = join(dir, `s${n}-${k}.json`);
-        const r = cli(['check', ...inputs, '--shard', `${k}/${n}`, '--report', p, '--quiet']);
-        expect(r.stderr).toBe('');
-        parts.push(p);
-      }
+      const parts = checkInShards(inputs, n, join(dir, `s${n}`));
       const merged = join(dir, `merged-${n}.json`);
       // Any order of the shard reports will do.
       const m = cli(['merge', ...parts.reverse(), '--report', merged, '--quiet']);

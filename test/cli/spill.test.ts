@@ -19,6 +19,7 @@ import { InputRun, selectRules, shiftFinding, type InputRunState } from '../../r
 import type { Batch, Finding, RowShift } from '../../rules/engine/types.js';
 import { makeBatch } from '../helpers/batch.js';
 import { tempDir } from '../helpers/cli.js';
+import { drain } from '../helpers/spill.js';
 
 const TEXTS = [null, '', 'GJ 1', 'two\nlines', 'back\\slash', '=x', 'cr\rhere', 'Sérsic α Cen', '\\n literally'];
 
@@ -73,16 +74,6 @@ describe('spill stores', () => {
   });
 });
 
-/** Every record and text of a log, partition by partition; closes it. */
-function drain(log: SpillLog): { records: number[]; texts: (string | null)[] }[] {
-  const out = [];
-  for (let p = 0; p < log.partitions; p++) {
-    const { records, texts } = log.take(p);
-    out.push({ records: [...records], texts });
-  }
-  log.close();
-  return out;
-}
 
 /**
  * Rows `from`..`to` of a whole input as records [row, line, payload] over 4 partitions, written as

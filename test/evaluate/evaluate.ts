@@ -184,7 +184,6 @@ export async function evaluateCatalog(spec: CatalogSpec, opts: EvaluateOptions =
   const selection = opts.selection ?? {};
   const colOf = new Map<string, { index: number; unit: string; column: string }>();
   for (const b of binding.columns) colOf.set(b.quantity, { index: b.columnIndex, unit: b.unit, column: b.column });
-  const unitOf = (q: NumericQuantity | 'id') => colOf.get(q)?.unit ?? (q === 'id' && colOf.has('id') ? '' : null);
   const columnName = (q: NumericQuantity) => colOf.get(q)?.column ?? '';
   const kinds = KINDS.filter((k) => k.applies((q) => (colOf.has(q) ? (colOf.get(q)!.unit ?? '') : null)));
 

@@ -2,6 +2,7 @@ import { spawnSync } from 'node:child_process';
 import { existsSync, mkdtempSync, readFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
+import { expect } from 'vitest';
 import type { Finding } from '../../rules/engine/types.js';
 
 export const REPO = resolve(import.meta.dirname, '../..');
@@ -55,4 +56,18 @@ export function comparableReport(path: string): unknown {
   delete doc.createdAt;
   delete doc.summary.cost;
   return doc;
+}
+
+/**
+ * `check` run as shards 1..n of n, each writing `<prefix>-<k>.json` and printing nothing on stderr.
+ * Returns the report paths in shard order.
+ */
+export function checkInShards(args: string[], n: number, prefix: string): string[] {
+  const parts: string[] = [];
+  for (let k = 1; k <= n; k++) {
+    const p = `${prefix}-${k}.json`;
+    expect(cli(['check', ...args, '--shard', `${k}/${n}`, '--report', p, '--quiet']).stderr, `shard ${k}/${n}`).toBe('');
+    parts.push(p);
+  }
+  return parts;
 }

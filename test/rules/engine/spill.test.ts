@@ -10,18 +10,10 @@ import { MemorySpill, composeShift, fileRuns, ownedFolders, spillHandlesIn, type
 import { FirstByRow, KeyLog, RepeatLog, type KeyEvent } from '../../../rules/checks/shared/fingerprints.js';
 import { ColumnTally } from '../../../rules/checks/shared/column-tally.js';
 import type { Finding } from '../../../rules/engine/types.js';
+import { drain } from '../../helpers/spill.js';
 
 const clone = <T>(x: T): T => deserialize(serialize(x)) as T;
 
-function drain(log: SpillLog): { records: number[]; texts: (string | null)[] }[] {
-  const out = [];
-  for (let p = 0; p < log.partitions; p++) {
-    const { records, texts } = log.take(p);
-    out.push({ records: [...records], texts });
-  }
-  log.close();
-  return out;
-}
 
 /** Rows from..to of a whole input as [row, line, payload], written by a range after `rows` rows and `lines` lines. */
 function fill(log: SpillLog, from: number, to: number, rows = 0, lines = 0): void {
